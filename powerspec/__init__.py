@@ -1,0 +1,52 @@
+"""powerspec: spectra of graph products and very high graph powers, from the factors.
+
+The pipeline (DESIGN §3): :mod:`~powerspec.factors` build and validate factor
+graphs; :mod:`~powerspec.measures` hold eigenvalue multisets with exact
+multiplicities; :mod:`~powerspec.products` and :mod:`~powerspec.algebra`
+combine them over expression trees (:mod:`~powerspec.powers` and
+:mod:`~powerspec.extremes` do the heavy lifting); :mod:`~powerspec.planner`
+answers queries as :class:`~powerspec.answers.Answer` objects; the
+:mod:`~powerspec.cli` and :mod:`~powerspec.demo` only translate.
+
+>>> import powerspec
+>>> powerspec.spectrum("cart(complete(2)^2)").atoms.atoms()
+[(-2.0, 1), (0.0, 2), (2.0, 1)]
+"""
+
+__version__ = "0.1.0"
+
+from .algebra import Engine, Leaf, Product  # noqa: E402
+from .answers import Answer  # noqa: E402
+from .errors import (  # noqa: E402
+    ExpressionError,
+    FactorFileError,
+    InputError,
+    NotExactError,
+    PowerspecError,
+    SizeLimitError,
+    SymbolicError,
+)
+from .expressions import parse  # noqa: E402
+from .factors import (  # noqa: E402
+    Factor,
+    complete,
+    complete_bipartite,
+    cycle,
+    dicycle,
+    from_matrix,
+    load,
+    loops,
+    motif,
+    path,
+    scale,
+    star,
+)
+from .measures import Spectrum  # noqa: E402
+from .planner import spectrum, top  # noqa: E402
+
+__all__ = [
+    "Answer", "Engine", "ExpressionError", "Factor", "FactorFileError", "InputError", "Leaf",
+    "NotExactError", "PowerspecError", "Product", "SizeLimitError", "Spectrum", "SymbolicError",
+    "complete", "complete_bipartite", "cycle", "dicycle", "from_matrix", "load", "loops",
+    "motif", "parse", "path", "scale", "spectrum", "star", "top",
+]

@@ -1,0 +1,323 @@
+"""Product algebra: expression trees of factors and products, and the exact engine.
+
+An expression is a tree of :class:`Leaf` (a factor graph) and
+:class:`Product` nodes.  A product node holds a
+:class:`~powerspec.products.Combination` and a tuple of operands, each an
+(expression, copies) pair: ``cart(cycle(10)^6)`` is one product node with the
+single operand (cycle(10), 6).
+
+:class:`Engine` computes the exact spectrum of any node for any matrix kind
+by the rules of :mod:`powerspec.products`: associative combinations are
+linearised and powered in s-space (:mod:`powerspec.powers`); ``mix`` with a
+outside {0, 1} is evaluated as the documented left fold; a matrix kind that
+is exact only for regular operands is obtained from the adjacency spectrum
+and the (exactly known) common degree, and refused with
+:class:`~powerspec.errors.NotExactError` otherwise.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from functools import reduce
+
+import numpy as np
+
+from .counts import BigCount, power_product
+from .counts import log2 as count_log2
+from .errors import InputError, NotExactError, SizeLimitError
+from .factors import Factor
+from .measures import LINEAR_MAX, Spectrum, mult_array, outer_mult, polar_add, polar_mul
+from .powers import composition_count, outer, power
+from .products import (
+    MATRIX_KINDS,
+    MATRIX_RULES,
+    NON_EXACT_REASON,
+    REGULAR_FORM,
+    Combination,
+)
+
+DEFAULT_LIMIT = 2_000_000
+"""Default largest number of distinct eigenvalues an exact answer may hold."""
+
+PAIR_FACTOR = 4
+"""A single combination step may form at most PAIR_FACTOR * limit pairs."""
+
+MAX_MULT_BYTES = 2 * 2**30
+"""Memory allowed for the exact multiplicities of one spectrum (atoms x bits of the order)."""
+
+
+@dataclass(frozen=True, eq=False)
+class Leaf:
+    """A factor graph at the leaves of an expression."""
+
+    factor: Factor
+
+    @property
+    def order(self) -> int:
+        """Number of vertices (exact int)."""
+        return self.factor.n
+
+    @property
+    def directed(self) -> bool:
+        """True when the factor's adjacency matrix is not symmetric."""
+        return self.factor.directed
+
+    def label(self) -> str:
+        """The expression text of this node."""
+        return self.factor.name
+
+    def leaves(self) -> list[Factor]:
+        """The factors of this subtree."""
+        return [self.factor]
+
+
+@dataclass(frozen=True, eq=False)
+class Product:
+    """A product of operands; ``operands`` are (node, copies) pairs with copies >= 1."""
+
+    comb: Combination
+    operands: tuple[tuple[Leaf | Product, int], ...]
+    name: str = field(default="")
+
+    def __post_init__(self):
+        if not self.operands:
+            raise InputError("a product needs at least one operand")
+        for _, k in self.operands:
+            if not isinstance(k, int) or isinstance(k, bool) or k < 1:
+                raise InputError(f"copies must be an integer >= 1, got {k!r}")
+
+    @property
+    def order(self) -> int | BigCount:
+        """Number of vertices, prod n_j^k_j: an exact int, or a BigCount when enormous."""
+        return power_product((node.order, k) for node, k in self.operands)
+
+    @property
+    def directed(self) -> bool:
+        """True when any factor below is directed."""
+        return any(node.directed for node, _ in self.operands)
+
+    def label(self) -> str:
+        """The expression text of this node."""
+        head = self.name or self.comb.label()
+        if head.startswith("mix("):
+            prefix = head[:-1] + ", "
+        else:
+            prefix = head + "("
+        parts = [node.label() + (f"^{k}" if k != 1 else "") for node, k in self.operands]
+        return prefix + ", ".join(parts) + ")"
+
+    def leaves(self) -> list[Factor]:
+        """The factors of this subtree."""
+        return [f for node, _ in self.operands for f in node.leaves()]
+
+
+Node = Leaf | Product
+
+
+def _check_kind(kind: str) -> None:
+    if kind not in MATRIX_KINDS:
+        raise InputError(f"unknown matrix kind {kind!r}; choose one of {', '.join(MATRIX_KINDS)}")
+
+
+class Engine:
+    """Exact spectra of expression nodes, with a size limit checked before work.
+
+    ``limit`` bounds the distinct eigenvalues of any intermediate or final
+    result, ``limit * PAIR_FACTOR`` the pairs formed in one step.  Results are
+    cached per (node, kind), so a repeated sub-expression costs once.
+
+    >>> from powerspec.factors import complete
+    >>> q3 = Product(Combination(1.0, 0.0), ((Leaf(complete(2)), 3),))
+    >>> Engine().spectrum(q3).atoms()
+    [(-3.0, 1), (-1.0, 3), (1.0, 3), (3.0, 1)]
+    """
+
+    def __init__(self, limit: int = DEFAULT_LIMIT, direction: str = "out"):
+        if not isinstance(limit, int) or isinstance(limit, bool) or limit < 1:
+            raise InputError(f"the limit must be a positive integer, got {limit!r}")
+        if direction not in ("out", "in"):
+            raise InputError(f"degree direction must be 'out' or 'in', got {direction!r}")
+        self.limit = limit
+        self.budget = limit * PAIR_FACTOR
+        self.direction = direction
+        self._cache: dict[tuple[int, str], Spectrum] = {}
+        self._keep: list[Node] = []  # keep nodes alive so id() keys stay unique
+
+    # ------------------------------------------------------------ degrees
+    def degrees(self, node: Node) -> Spectrum:
+        """Exact multiset of vertex degrees (row sums; column sums when direction='in')."""
+        key = (id(node), "#degree")
+        if key not in self._cache:
+            if isinstance(node, Leaf):
+                sp = Spectrum.from_values(node.factor.degrees(self.direction))
+            else:
+                sp = self._combine(node.comb, [(self.degrees(c), k) for c, k in node.operands])
+            self._store(key, node, sp)
+        return self._cache[key]
+
+    def is_regular(self, node: Node) -> bool:
+        """True when every vertex of the node has the same degree (exact multiset test)."""
+        return len(self.degrees(node)) == 1
+
+    # ----------------------------------------------------------- spectrum
+    def spectrum(self, node: Node, kind: str = "adjacency") -> Spectrum:
+        """The exact spectrum (merged multiset) of the node's matrix of the given kind.
+
+        Raises NotExactError when the kind's spectrum does not follow from the
+        factors', SizeLimitError when it would exceed the limit.
+        """
+        _check_kind(kind)
+        key = (id(node), kind)
+        if key not in self._cache:
+            self._store(key, node, self._spectrum(node, kind))
+        return self._cache[key]
+
+    def _store(self, key, node, sp) -> None:
+        self._cache[key] = sp
+        self._keep.append(node)
+
+    def _spectrum(self, node: Node, kind: str) -> Spectrum:
+        if isinstance(node, Leaf):
+            return Spectrum.from_values(node.factor.eigenvalues(kind, self.direction))
+        if kind == "normalized" and node.directed:
+            raise InputError(
+                "the normalized Laplacian is defined for undirected graphs only; "
+                "use --matrix laplacian or transition"
+            )
+        rule = MATRIX_RULES[kind](node.comb)
+        if rule is not None:
+            return self._combine(rule, [(self.spectrum(c, kind), k) for c, k in node.operands])
+        deg = self.degrees(node)
+        if len(deg) != 1:
+            lo, hi = _real_range(deg)
+            raise NotExactError(
+                f"the {kind} spectrum of {node.label()} is not exact: "
+                f"{NON_EXACT_REASON[kind]} unless every factor is regular, and degrees here "
+                f"range from {lo:.6g} to {hi:.6g}; use --matrix adjacency, or a Cartesian "
+                f"product for laplacian/signless"
+            )
+        d = deg.value(0)
+        if kind in ("normalized", "transition") and d == 0:
+            raise InputError(f"the {kind} matrix needs non-zero degrees; {node.label()} has degree 0")
+        shift, factor = REGULAR_FORM[kind](d)
+        return self.spectrum(node, "adjacency").affine(shift, factor)
+
+    # --------------------------------------------------------- combining
+    def _combine(self, comb: Combination, parts: list[tuple[Spectrum, int]]) -> Spectrum:
+        mode = comb.mode
+        if mode is None:
+            return self._fold(comb, parts)
+        to_shift, to_factor = comb.to_s()
+        powered = [
+            power(sp.affine(to_shift, to_factor), k, mode, self.budget, self.limit)
+            for sp, k in parts
+        ]
+        for p in powered:
+            self._check(p)
+        result = reduce(lambda x, y: self._check(outer(x, y, mode, self.budget)), powered)
+        back_shift, back_factor = comb.from_s()
+        return result.affine(back_shift, back_factor)
+
+    def _fold(self, comb: Combination, parts: list[tuple[Spectrum, int]]) -> Spectrum:
+        # Non-associative mix: ((x1 o x2) o x3) o ... in the written order of the copies.
+        seq = [sp for sp, k in parts for _ in range(k)] if sum(k for _, k in parts) < 10**7 else None
+        if seq is None:
+            raise SizeLimitError("a left fold over 10^7 or more copies is beyond the exact engine")
+        acc = seq[0]
+        for nxt in seq[1:]:
+            acc = self._check(fold_outer(comb, acc, nxt, self.budget))
+        return acc
+
+    def _check(self, sp: Spectrum) -> Spectrum:
+        if len(sp) > self.limit:
+            raise SizeLimitError(
+                f"an intermediate result has {len(sp)} distinct eigenvalues, over the limit "
+                f"of {self.limit}"
+            )
+        if len(sp) * sp.order.bit_length() > 8 * MAX_MULT_BYTES:
+            raise SizeLimitError("the exact multiplicities would need more than 2 GiB")
+        return sp
+
+    def fits(self, node: Node, kind: str = "adjacency") -> bool:
+        """True when the cheap bound says the exact spectrum fits the atom and memory limits."""
+        b = self.bound(node, kind)
+        return b <= self.limit and b * node.order.bit_length() <= 8 * MAX_MULT_BYTES
+
+    # ------------------------------------------------------------- bounds
+    def bound(self, node: Node, kind: str = "adjacency") -> int:
+        """Cheap upper bound on the number of distinct eigenvalues (no merging assumed)."""
+        _check_kind(kind)
+        if isinstance(node, Leaf):
+            return len(self.spectrum(node, kind))
+        rule = MATRIX_RULES[kind](node.comb)
+        use = kind if rule is not None else "adjacency"
+        comb = rule if rule is not None else node.comb
+        # Work in log2 so that astronomically large powers cost nothing.
+        total = 0.0
+        for child, k in node.operands:
+            r = self.bound(child, use)
+            child_bits = k * count_log2(child.order)
+            if comb.mode is None:
+                total += min(k * math.log2(max(r, 1)), child_bits)
+            elif r <= 1:
+                total += 0.0
+            else:
+                # log2 C(k + r - 1, r - 1) <= (r - 1) log2(k + r - 1)
+                total += min((r - 1) * math.log2(k + r - 1), child_bits)
+        total = min(total, count_log2(node.order))
+        if total > 62:
+            return 2**63  # far beyond any limit; the exact value is not needed
+        exact = 1
+        for child, k in node.operands:
+            r = self.bound(child, use)
+            rb = r**k if comb.mode is None else composition_count(k, r)
+            small = k * count_log2(child.order) <= 64
+            exact *= min(rb, child.order**k) if small else rb
+        return min(exact, node.order) if isinstance(node.order, int) else exact
+
+
+def fold_outer(comb: Combination, a: Spectrum, b: Spectrum, budget: int) -> Spectrum:
+    """Spectrum of the generalized product a(A(+)B) + b(A(x)B): values comb(x_i, y_j).
+
+    >>> x = Spectrum.from_values([1.0, 2.0])
+    >>> fold_outer(Combination(2.0, 1.0), x, x, 10).atoms()
+    [(5.0, 1), (8.0, 2), (12.0, 1)]
+    """
+    pairs = len(a) * len(b)
+    if pairs > budget:
+        raise SizeLimitError(
+            f"combining {len(a)} by {len(b)} distinct eigenvalues needs {pairs} pairs, "
+            f"more than the budget of {budget}"
+        )
+    mult = outer_mult(a.mult, b.mult, a.order, b.order)
+    order = a.order * b.order
+    if not (a.is_polar or b.is_polar):
+        ma = float(np.max(np.abs(a.values), initial=0.0))
+        mb = float(np.max(np.abs(b.values), initial=0.0))
+        if abs(comb.a) * (ma + mb) + abs(comb.b) * ma * mb < LINEAR_MAX:
+            vals = comb(a.values[:, None], b.values[None, :]).ravel()
+            ea, eb = a.atol or 0.0, b.atol or 0.0
+            atol = abs(comb.a) * (ea + eb) + abs(comb.b) * (ea * mb + eb * ma + ea * eb)
+            atol += 1e-15 * float(np.max(np.abs(vals), initial=0.0))
+            return Spectrum(vals, mult, order=order, atol=atol)
+    la, ta = (x[:, None] for x in a.to_polar())
+    lb, tb = (x[None, :] for x in b.to_polar())
+    terms = []
+    for coef, (l_, t_) in ((comb.a, (la, ta)), (comb.a, (lb, tb)), (comb.b, polar_mul(la, ta, lb, tb))):
+        if coef != 0:
+            cl, ct = math.log(abs(coef)), 0.0 if coef > 0 else 0.5
+            terms.append(polar_mul(*np.broadcast_arrays(l_, t_), cl, ct))
+    l_acc, t_acc = terms[0]
+    for l_, t_ in terms[1:]:
+        l_acc, t_acc = polar_add(l_acc, t_acc, *np.broadcast_arrays(l_, t_))
+    l_acc, t_acc = np.broadcast_arrays(l_acc, t_acc)
+    return Spectrum.polar(np.ravel(l_acc), np.ravel(t_acc), mult, order=order)
+
+
+def _real_range(sp: Spectrum) -> tuple[float, float]:
+    r = sp.real_parts()
+    return float(np.min(r)), float(np.max(r))
+
+
+__all__ = ["Leaf", "Product", "Node", "Engine", "fold_outer", "DEFAULT_LIMIT", "mult_array"]

@@ -1,0 +1,125 @@
+"""The ``powerspec`` command: parses options, calls the planner, prints the answer.
+
+No mathematics lives here.  Every user error (bad expression, bad input, a
+request over the size limit, a spectrum that is not exact) is one line on
+stderr and exit status 2.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from collections.abc import Sequence
+
+from . import __version__, planner
+from .answers import write_atomic
+from .errors import PowerspecError
+from .products import MATRIX_KINDS
+
+EXIT_USER_ERROR = 2
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with one-line errors."""
+
+    def error(self, message: str):  # noqa: D102 - argparse hook
+        raise _UsageError(f"{message} (see '{self.prog} --help')")
+
+
+class _UsageError(Exception):
+    pass
+
+
+def _common(p: argparse.ArgumentParser, matrix: bool = True) -> None:
+    if matrix:
+        p.add_argument("--matrix", default="adjacency", choices=MATRIX_KINDS,
+                       help="which matrix of the product (default: adjacency)")
+        p.add_argument("--degrees", default="out", choices=("out", "in"),
+                       help="degree used by laplacian/signless/transition for directed factors")
+    p.add_argument("--json", action="store_true", help="print the stable JSON layout")
+    p.add_argument("--limit", type=_positive_int, default=None,
+                   help="largest number of distinct eigenvalues to enumerate")
+    p.add_argument("--output", metavar="FILE", default=None,
+                   help="write the answer to FILE (atomically) instead of stdout")
+
+
+def _positive_int(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a positive whole number, got {text!r}") from None
+    if v < 1:
+        raise argparse.ArgumentTypeError(f"expected a positive whole number, got {text!r}")
+    return v
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of the ``powerspec`` command."""
+    p = _Parser(prog="powerspec",
+                description="Spectra of graph products and graph powers, from the factors.")
+    p.add_argument("--version", action="version", version=f"powerspec {__version__}")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    s = sub.add_parser("spectrum", help="the full exact multiset of eigenvalues")
+    s.add_argument("expression")
+    _common(s)
+
+    t = sub.add_parser("top", help="the M largest (or smallest) distinct eigenvalues")
+    t.add_argument("expression")
+    t.add_argument("-m", type=_positive_int, default=5, help="how many distinct values (5)")
+    t.add_argument("--bottom", action="store_true", help="the smallest instead of the largest")
+    _common(t)
+
+    d = sub.add_parser("demo", help="the built-in worked scenario")
+    d.add_argument("--output", metavar="FILE", default=None)
+    return p
+
+
+def _run(args: argparse.Namespace) -> str:
+    if args.command == "spectrum":
+        ans = planner.spectrum(args.expression, args.matrix, limit=args.limit,
+                               degrees=args.degrees)
+    elif args.command == "top":
+        ans = planner.top(args.expression, args.m, args.matrix, bottom=args.bottom,
+                          limit=args.limit, degrees=args.degrees)
+    elif args.command == "demo":
+        from .demo import run_demo
+
+        return run_demo()
+    else:  # pragma: no cover - argparse restricts the choices
+        raise _UsageError(f"unknown command {args.command!r}")
+    return ans.to_json() if args.json else ans.to_text()
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point; returns the exit status (0 ok, 2 user error)."""
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+        if not args.command:
+            parser.print_help()
+            return EXIT_USER_ERROR
+        text = _run(args)
+        if getattr(args, "output", None):
+            write_atomic(args.output, text)
+        else:
+            sys.stdout.write(text)
+        return 0
+    except (PowerspecError, _UsageError) as exc:
+        print(f"powerspec: error: {_one_line(str(exc))}", file=sys.stderr)
+        return EXIT_USER_ERROR
+    except MemoryError:
+        print("powerspec: error: out of memory; lower --limit or ask a smaller question",
+              file=sys.stderr)
+        return EXIT_USER_ERROR
+    except KeyboardInterrupt:
+        print("powerspec: interrupted", file=sys.stderr)
+        return 130
+
+
+def _one_line(msg: str) -> str:
+    return " ".join(msg.split())
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,115 @@
+"""The command line: JSON contract, text output, and one-line errors with exit status 2."""
+
+from __future__ import annotations
+
+import json
+import math
+import subprocess
+import sys
+
+import pytest
+
+from powerspec.cli import main
+
+
+def run(argv, capsys):
+    code = main(argv)
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_spectrum_json_keys_and_exact_multiplicities(capsys):
+    code, out, err = run(["spectrum", "cart(complete(2)^100)", "--json"], capsys)
+    assert code == 0 and err == ""
+    data = json.loads(out)
+    for key in ("expression", "matrix", "order", "method", "atoms"):
+        assert key in data
+    assert data["order"] == 2**100
+    # source: Q_k closed form k - 2j with multiplicity C(k, j) (textbook)
+    assert data["atoms"][0] == [-100.0, 1]
+    assert data["atoms"][50] == [0.0, math.comb(100, 50)]
+
+
+def test_top_json_complex_values(capsys):
+    code, out, _ = run(["top", "cart(dicycle(4)^2)", "-m", "2", "--json"], capsys)
+    assert code == 0
+    data = json.loads(out)
+    # source: dicycle(4) eigenvalues are the 4th roots of unity; sums of two: top 2 (once),
+    # then 1+i and 1-i (twice each)
+    assert data["atoms"][-1] == [[2.0, 0.0], 1]
+    assert sorted(tuple(a[0]) for a in data["atoms"][:-1]) == [(1.0, -1.0), (1.0, 1.0)]
+
+
+def test_huge_values_written_as_json_numbers(capsys):
+    code, out, _ = run(["top", "direct(complete(3)^2000)", "-m", "1", "--json"], capsys)
+    assert code == 0
+    # json.loads turns out-of-range literals into inf, so read them exactly with Decimal.
+    from decimal import Decimal
+
+    data = json.loads(out, parse_float=Decimal)
+    v = data["atoms"][0][0]
+    # source: 2^2000 = 1.1481306952742545...e602 (Python integer arithmetic)
+    assert abs(v / Decimal(2**2000) - 1) < Decimal("1e-15")
+
+
+def test_text_output_readable(capsys):
+    code, out, _ = run(["spectrum", "cart(cycle(4)^2)"], capsys)
+    assert code == 0
+    assert "eigenvalue" in out and "multiplicity" in out and "16 vertices" in out
+
+
+def test_output_file_atomic(tmp_path, capsys):
+    target = tmp_path / "q.json"
+    code, out, _ = run(["spectrum", "cart(complete(2)^3)", "--json", "--output", str(target)],
+                       capsys)
+    assert code == 0 and out == ""
+    assert json.loads(target.read_text())["order"] == 8
+    assert [p.name for p in tmp_path.iterdir()] == ["q.json"]
+
+
+@pytest.mark.parametrize(
+    "argv,phrase",
+    [
+        (["spectrum", "cart(cycle(5)"], "column 14"),
+        (["spectrum", "cycle(5)^3"], "only meaningful inside a product"),
+        (["spectrum", "cart(cycle(5)^-2)"], "at least 1"),
+        (["spectrum", "cart(cycle(5)^2.5)"], "whole number"),
+        (["spectrum", "cart(hexagon(5)^2)"], "unknown function"),
+        (["spectrum", "cart(cycle(2)^2)"], "cycle"),
+        (["spectrum", "cart(cycle(5) cycle(4))"], "column"),
+        (["spectrum", 'cart(load("/no/such/file.mtx")^2)'], "/no/such/file.mtx"),
+        (["spectrum", "cart(motif()^200)"], "limit"),
+        (["spectrum", "direct(path(3), cycle(4))", "--matrix", "laplacian"], "not exact"),
+        (["spectrum", "cart(dicycle(3)^2)", "--matrix", "normalized"], "undirected"),
+        (["spectrum", "cart(cycle(5)^2)", "--limit", "0"], "positive"),
+        (["spectrum", "cart(cycle(5)^2)", "--matrix", "weird"], "invalid choice"),
+        (["top", "cart(cycle(5)^2)", "-m", "x"], "positive whole number"),
+        (["frobnicate"], "invalid choice"),
+        (["spectrum", ""], "empty"),
+        (["spectrum", "cart(cycle(5)^2) extra"], "unexpected"),
+    ],
+)
+def test_user_errors_one_line_exit_2(argv, phrase, capsys):
+    code, out, err = run(argv, capsys)
+    assert code == 2
+    assert out == ""
+    assert err.count("\n") == 1 and err.startswith("powerspec: error: ")
+    assert phrase in err
+    assert "Traceback" not in err
+
+
+def test_bad_matrix_market_file(tmp_path, capsys):
+    bad = tmp_path / "bad.mtx"
+    bad.write_text("%%MatrixMarket matrix coordinate real general\n2 3 1\n1 1 1.0\n")
+    code, _, err = run(["spectrum", f'cart(load("{bad}")^2)'], capsys)
+    assert code == 2 and "square" in err and err.count("\n") == 1
+
+
+def test_python_dash_m_and_demo():
+    proc = subprocess.run([sys.executable, "-m", "powerspec", "demo"], capture_output=True,
+                          text=True, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    assert "22-cube" in proc.stdout and "motif" in proc.stdout
+    proc = subprocess.run([sys.executable, "-m", "powerspec", "spectrum", "cart(cycle(5)"],
+                          capture_output=True, text=True, timeout=60)
+    assert proc.returncode == 2 and proc.stderr.count("\n") == 1

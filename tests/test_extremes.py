@@ -1,0 +1,144 @@
+"""`top` (best-first extremes) against closed forms and the full exact spectrum."""
+
+from __future__ import annotations
+
+import math
+
+import mpmath
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+import powerspec as ps
+from tests.reference import eigenvalues, expand, fold
+
+
+def top_atoms(expr, m, **kw):
+    return ps.top(expr, m, **kw).atoms.atoms()
+
+
+def test_hypercube_top_huge_k():
+    # source: Q_k closed form, eigenvalues k - 2j with multiplicity C(k, j)
+    k = 10**9
+    got = top_atoms(f"cart(complete(2)^{k})", 3)
+    assert got == [(float(k - 2 * j), math.comb(k, j)) for j in (2, 1, 0)]
+    got = top_atoms(f"cart(complete(2)^{k})", 2, bottom=True)
+    assert got == [(float(-k), 1), (float(-k + 2), k)]
+
+
+def test_hamming_top_huge_k():
+    # source: Hamming graph H(k, q) = cart(K_q^k): eigenvalues (q-1)k - qj with
+    # multiplicity C(k, j)(q-1)^j (Brouwer & Haemers, Spectra of Graphs -- from memory)
+    q, k = 4, 10**6
+    got = top_atoms(f"cart(complete({q})^{k})", 3)
+    want = [(float((q - 1) * k - q * j), math.comb(k, j) * (q - 1) ** j) for j in (2, 1, 0)]
+    assert got == want
+
+
+@pytest.mark.parametrize("k", [6, 7, 40, 41])
+def test_direct_power_with_negative_eigenvalues(k):
+    # source: closed form -- path(3) has eigenvalues -sqrt2, 0, sqrt2; the direct power has
+    # +-2^(k/2) (sign by parity of the number of negative picks) and 0.  For even k the
+    # largest value 2^(k/2) has multiplicity 2^(k-1) (even number of -sqrt2 picks).
+    got = top_atoms(f"direct(path(3)^{k})", 1)
+    (v, m), = got
+    assert math.isclose(float(v), 2 ** (k / 2), rel_tol=1e-12)
+    assert m == 2 ** (k - 1)
+    bot = top_atoms(f"direct(path(3)^{k})", 1, bottom=True)
+    assert math.isclose(float(bot[0][0]), -(2 ** (k / 2)), rel_tol=1e-12)
+    assert bot[0][1] == 2 ** (k - 1)
+
+
+def test_direct_top_most_negative_factor_value():
+    # loops(-3, complete(2)) has eigenvalues -2 and -4; direct square: 16 (from (-4)^2) is the top.
+    # source: closed form products of {-2, -4}
+    got = top_atoms("direct(loops(-3, complete(2))^2)", 3)
+    assert got == [(4.0, 1), (8.0, 2), (16.0, 1)]
+    got3 = top_atoms("direct(loops(-3, complete(2))^3)", 2)
+    # k odd: all values negative; largest are -8 (once) and -16 (three times)
+    assert got3 == [(-16.0, 3), (-8.0, 1)]
+
+
+def test_direct_power_overflow_log_form():
+    # source: closed form, complete(3) eigenvalues 2, -1, -1: top of the direct power is 2^k
+    k = 10**6
+    (v, m), = top_atoms(f"direct(complete(3)^{k})", 1)
+    assert isinstance(v, mpmath.mpf)
+    assert mpmath.almosteq(mpmath.log(v), k * mpmath.log(2), 1e-9)
+    assert m == 1
+
+
+def test_strong_top_any_k():
+    # source: strong(K_q^k) = K_{q^k}; top eigenvalue q^k - 1 with multiplicity 1
+    (v, m), = top_atoms("strong(complete(3)^50)", 1)
+    assert math.isclose(float(v), 3.0**50 - 1, rel_tol=1e-12) and m == 1
+
+
+def test_multiplicity_guard():
+    with pytest.raises(ps.SizeLimitError, match="digits"):
+        ps.top("strong(complete(3)^1000000000)", 2)
+
+
+def test_mixed_expression_top():
+    # source: numpy eigvalsh on the explicit product direct(path(3)^4, cycle(5))
+    p3 = np.array([[0, 1, 0], [1, 0, 1], [0, 1, 0]], float)
+    c5 = np.roll(np.eye(5), 1, 1)
+    c5 = c5 + c5.T
+    explicit = fold([p3, p3, p3, p3], 0.0, 1.0)
+    explicit = np.kron(explicit, c5)
+    want = np.sort(np.linalg.eigvalsh(explicit))
+    got = top_atoms("direct(path(3)^4, cycle(5))", 2, limit=5)
+    vals = [v for v, _ in got]
+    assert abs(vals[-1] - want[-1]) < 1e-9
+    assert sum(m for _, m in got) == int(np.sum(want > vals[0] - 1e-9))
+
+
+@pytest.mark.parametrize("expr", [
+    "cart(dicycle(5)^3)", "direct(dicycle(4)^3, path(2))", "cart(dicycle(3), cycle(4)^2)",
+    "direct(dicycle(6)^4)",
+])
+def test_complex_spectra_ordered_by_real_part(expr):
+    # source: the full exact spectrum (checked against numpy in test_engine), sorted by real
+    # part: top() with a tiny limit must return the same leading atoms via best-first search
+    full = ps.spectrum(expr).atoms.atoms()
+    for bottom in (False, True):
+        got = top_atoms(expr, 3, bottom=bottom, limit=2)
+        want = full[:3] if bottom else full[-3:]
+        assert len(got) == len(want)
+        for (a, ma), (b, mb) in zip(got, want, strict=True):
+            assert abs(complex(a) - complex(b)) < 1e-9 and ma == mb
+
+
+@st.composite
+def factor_matrix(draw):
+    n = draw(st.integers(2, 4))
+    a = np.zeros((n, n))
+    for i in range(n):
+        for j in range(i, n):
+            if draw(st.booleans()):
+                a[i, j] = a[j, i] = draw(st.sampled_from([-1.0, 1.0, 2.0, 0.5]))
+    return a
+
+
+@settings(max_examples=80, deadline=None)
+@given(factor_matrix(), factor_matrix(), st.sampled_from(["cart", "direct", "strong"]),
+       st.integers(1, 4), st.integers(1, 3), st.integers(1, 4), st.booleans())
+def test_best_first_equals_full_spectrum(a, b, kind, ka, kb, m, bottom):
+    # source: numpy eigvalsh on the explicitly built product (tests/reference.fold), the
+    # m extreme distinct values and their counts
+    ca, cb = {"cart": (1.0, 0.0), "direct": (0.0, 1.0), "strong": (1.0, 1.0)}[kind]
+    fa, fb = ps.from_matrix(a, name="A"), ps.from_matrix(b, name="B")
+    node = ps.Product(ps.products.PRODUCT_KINDS[kind], ((ps.Leaf(fa), ka), (ps.Leaf(fb), kb)))
+    explicit = fold([a] * ka + [b] * kb, ca, cb)
+    want = np.sort(eigenvalues(explicit).real)
+    got = ps.top(node, m, bottom=bottom, limit=1).atoms
+    vals = expand(got).real
+    scale = max(1.0, np.abs(want).max())
+    # the returned values are the extreme ones, with exact multiplicities
+    cut = vals.min() if not bottom else vals.max()
+    inside = want[want >= cut - 1e-7 * scale] if not bottom else want[want <= cut + 1e-7 * scale]
+    assert len(inside) == len(vals)
+    assert np.max(np.abs(np.sort(inside) - np.sort(vals))) < 1e-7 * scale
+    distinct = len(ps.spectrum(node).atoms)
+    assert len(got) == min(m, distinct)
