@@ -91,15 +91,35 @@ def extremes(engine: Engine, node: Node, kind: str, m: int, bottom: bool = False
 
 
 def select(sp: Spectrum, m: int, bottom: bool) -> Spectrum:
-    """The m largest (or smallest) atoms of sp by real part, then imaginary part."""
+    """The m largest (or smallest) atoms of sp by real part, then imaginary part.
+
+    Atoms whose real part ties (within the merging tolerance) with the last one
+    selected are included too, so a complex-conjugate pair is never split.
+    """
     n = len(sp)
-    idx = np.arange(max(0, n - m), n) if not bottom else np.arange(0, min(m, n))
+    re = sp.real_parts()
+    if not bottom:
+        lo = max(0, n - m)
+        while lo > 0 and _same_real(re[lo - 1], re[lo], sp):
+            lo -= 1
+        idx = np.arange(lo, n)
+    else:
+        hi = min(m, n)
+        while hi < n and _same_real(re[hi], re[hi - 1], sp):
+            hi += 1
+        idx = np.arange(0, hi)
     mult = sp.mult[idx]
     total = int(sum(mult.tolist()))
     if sp.is_polar:
         la, t = sp.to_polar()
         return Spectrum.polar(la[idx], t[idx], mult_array(mult.tolist(), total), order=total)
-    return Spectrum(sp.values[idx], mult_array(mult.tolist(), total), order=total)
+    return Spectrum(sp.values[idx], mult_array(mult.tolist(), total), order=total, merge=False)
+
+
+def _same_real(x: float, y: float, sp: Spectrum) -> bool:
+    if sp.is_real or not (np.isfinite(x) and np.isfinite(y)):
+        return False
+    return abs(x - y) <= RTOL * max(abs(x), abs(y)) + (sp.atol or 0.0)
 
 
 def _flatten(engine: Engine, node: Node, kind: str):

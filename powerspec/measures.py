@@ -11,7 +11,8 @@ Values are stored in one of two forms:
 * **polar** -- ``logabs`` = log|v| (``-inf`` for an exact zero) and ``turns``
   = arg(v) / 2pi in [0, 1).  This form is used when some |v| exceeds
   :data:`LINEAR_MAX` (products of powers overflow a double quickly); values
-  are then returned as mpmath numbers, never as ``inf``.
+  are then returned as mpmath numbers, never as ``inf``.  Their relative
+  precision is that of log|v| in a double: about |log v| * 2.2e-16.
 
 Merging tolerance.  Two atoms x, y are the same eigenvalue when
 ``|x - y| <= RTOL * max(|x|, |y|) + atol`` (linear form; real and imaginary
