@@ -43,6 +43,22 @@ def _common(p: argparse.ArgumentParser, matrix: bool = True) -> None:
                    help="write the answer to FILE (atomically) instead of stdout")
 
 
+def _symbolic(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--symbolic", action="store_true",
+                   help="closed forms as sympy expressions (a bare name as power, e.g. G^k)")
+    p.add_argument("--latex", action="store_true", help="with --symbolic: print LaTeX")
+
+
+def _real(text: str) -> float:
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
+    if v != v or v in (float("inf"), float("-inf")):
+        raise argparse.ArgumentTypeError(f"expected a finite number, got {text!r}")
+    return v
+
+
 def _positive_int(text: str) -> int:
     try:
         v = int(text)
@@ -63,12 +79,39 @@ def build_parser() -> argparse.ArgumentParser:
     s = sub.add_parser("spectrum", help="the full exact multiset of eigenvalues")
     s.add_argument("expression")
     _common(s)
+    _symbolic(s)
 
     t = sub.add_parser("top", help="the M largest (or smallest) distinct eigenvalues")
     t.add_argument("expression")
     t.add_argument("-m", type=_positive_int, default=5, help="how many distinct values (5)")
     t.add_argument("--bottom", action="store_true", help="the smallest instead of the largest")
     _common(t)
+    _symbolic(t)
+
+    for name, helptext in (("cdf", "fraction of eigenvalues <= X, with bounds"),
+                           ("count", "number of eigenvalues in [A, B], with bounds"),
+                           ("quantile", "the Q-quantile of the spectrum, with bounds")):
+        q = sub.add_parser(name, help=helptext)
+        q.add_argument("expression")
+        for arg in {"cdf": ("x",), "count": ("a", "b"), "quantile": ("q",)}[name]:
+            q.add_argument(arg, type=_real, metavar=arg.upper())
+        q.add_argument("--method", default="auto", choices=("auto", "exact", "bracket", "law"),
+                       help="which tier answers (auto: the cheapest that meets --tol)")
+        q.add_argument("--tol", type=_real, default=None, help="wanted width of the bound")
+        _common(q)
+
+    mo = sub.add_parser("moments", help="exact spectral moments tr(M^p)")
+    mo.add_argument("expression")
+    mo.add_argument("--order", type=_positive_int, default=4, help="highest power p (4)")
+    _common(mo)
+    _symbolic(mo)
+
+    iv = sub.add_parser("invariants", help="spectral radius, connectivity, spanning trees, ...")
+    iv.add_argument("expression")
+    _common(iv, matrix=False)
+    iv.add_argument("--degrees", default="out", choices=("out", "in"),
+                    help="degree used for directed factors' Laplacians")
+    _symbolic(iv)
 
     d = sub.add_parser("demo", help="the built-in worked scenario")
     d.add_argument("--output", metavar="FILE", default=None)
@@ -76,7 +119,33 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def _run(args: argparse.Namespace) -> str:
-    if args.command == "spectrum":
+    if getattr(args, "latex", False) and not args.symbolic:
+        raise _UsageError("--latex goes with --symbolic")
+    if getattr(args, "symbolic", False):
+        from .answers import dump_json
+        from .symbolic import symbolic_report, symbolic_text
+
+        extra = {"max_power": args.order} if args.command == "moments" else {}
+        rep = symbolic_report(args.command, args.expression,
+                              matrix=getattr(args, "matrix", "adjacency"), latex=args.latex, **extra)
+        return dump_json(rep) + "\n" if args.json else symbolic_text(rep, latex=args.latex)
+    if args.command in ("cdf", "count", "quantile"):
+        from . import distribution
+
+        fn = getattr(distribution, args.command)
+        point = {"cdf": (args.x,), "count": (args.a, args.b), "quantile": (args.q,)}[args.command]
+        ans = fn(args.expression, *point, args.matrix, method=args.method, tol=args.tol,
+                 limit=args.limit, degrees=args.degrees)
+    elif args.command == "moments":
+        from .moments import moment_answer
+
+        ans = moment_answer(args.expression, order=args.order, matrix=args.matrix,
+                            degrees=args.degrees)
+    elif args.command == "invariants":
+        from .invariants import invariants
+
+        ans = invariants(args.expression, limit=args.limit, degrees=args.degrees)
+    elif args.command == "spectrum":
         ans = planner.spectrum(args.expression, args.matrix, limit=args.limit,
                                degrees=args.degrees)
     elif args.command == "top":

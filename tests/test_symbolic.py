@@ -1,0 +1,440 @@
+"""The symbolic bridge against closed forms, the exact engine and numpy."""
+
+from __future__ import annotations
+
+import math
+import time
+
+import numpy as np
+import pytest
+import sympy
+
+import powerspec.planner as planner
+from powerspec import symbolic as S
+from powerspec.errors import ExpressionError, InputError, NotExactError, SymbolicError
+from tests.reference import fold
+
+
+def engine_atoms(text, matrix="adjacency"):
+    return planner.spectrum(text, matrix).atoms.atoms()
+
+
+def as_complex_pairs(pairs):
+    return sorted(((complex(sympy.N(v, 30)), int(m)) for v, m in pairs),
+                  key=lambda t: (round(t[0].real, 9), round(t[0].imag, 9)))
+
+
+def assert_same_multiset(symbolic_pairs, numeric_pairs, tol=1e-9):
+    got = as_complex_pairs(symbolic_pairs)
+    want = sorted(((complex(v), int(m)) for v, m in numeric_pairs),
+                  key=lambda t: (round(t[0].real, 9), round(t[0].imag, 9)))
+    assert len(got) == len(want)
+    for (x, mx), (y, my) in zip(got, want, strict=True):
+        assert mx == my
+        assert abs(x - y) <= tol * max(1.0, abs(y))
+
+
+def power_symbol(fam):
+    (k,) = fam.symbols
+    return k
+
+
+# ---------------------------------------------------------------- hypercube
+def test_hypercube_family_closed_form():
+    # source: Q_k has eigenvalues k - 2j with multiplicity C(k, j)
+    # (Brouwer & Haemers, Spectra of Graphs, §1.4.6 -- from memory)
+    fam = S.symbolic_family("cart(complete(2)^k)")
+    k = power_symbol(fam)
+    (j,) = fam.indices
+    assert sympy.expand(fam.eigenvalue - (k - 2 * j)) == 0
+    assert sympy.simplify(fam.multiplicity - sympy.binomial(k, j)) == 0
+    assert fam.order == 2**k
+
+
+@pytest.mark.parametrize("kk", range(1, 13))
+def test_hypercube_expansion_matches_engine(kk):
+    # source: the exact engine (powerspec.planner.spectrum) and the closed form k - 2j, C(k, j)
+    fam = S.symbolic_family("cart(complete(2)^k)")
+    got = fam.expand(k=kk)
+    assert got == [(sympy.Integer(kk - 2 * j), math.comb(kk, j)) for j in range(kk + 1)]
+    assert_same_multiset(got, engine_atoms(f"cart(complete(2)^{kk})"))
+
+
+# ------------------------------------------------------------------ Hamming
+@pytest.mark.parametrize("q", [3, 4, 5])
+def test_hamming_family_closed_form_and_engine(q):
+    # source: H(k, q) has eigenvalues (q-1)k - qj with multiplicity C(k, j)(q-1)^j
+    # (Brouwer & Haemers, Spectra of Graphs, Hamming graphs -- from memory)
+    fam = S.symbolic_family(f"cart(complete({q})^k)")
+    k = power_symbol(fam)
+    (j,) = fam.indices
+    assert sympy.expand(fam.eigenvalue - ((q - 1) * k - q * j)) == 0
+    assert sympy.simplify(fam.multiplicity - sympy.binomial(k, j) * (q - 1) ** j) == 0
+    for kk in (1, 2, 5):
+        got = fam.expand(k=kk)
+        want = [((q - 1) * kk - q * jj, math.comb(kk, jj) * (q - 1) ** jj) for jj in range(kk + 1)]
+        assert got == [(sympy.Integer(v), m) for v, m in want]
+        # source: the exact engine
+        assert_same_multiset(got, engine_atoms(f"cart(complete({q})^{kk})"))
+
+
+@pytest.mark.parametrize("text,kk", [
+    ("cart(cycle(5)^k)", 4),  # irrational eigenvalues (golden ratio), r = 3
+    ("cart(path(3)^k)", 5),  # sqrt(2), and merging of equal sums
+    ("direct(path(3)^k)", 4),  # multiplicative, zero eigenvalue
+    ("strong(complete(3)^k)", 6),
+    ("mix(1, 0.5, star(3)^k)", 3),
+    ("mix(0, 2, cycle(4)^k)", 3),
+    ("cart(complete(2)^k, path(3)^n)", (3, 2)),  # two symbolic powers
+    ("direct(cycle(3)^k, path(2))", 3),
+])
+def test_expansion_matches_engine(text, kk):
+    # source: the exact engine on the same expression with the powers substituted
+    fam = S.symbolic_family(text)
+    if isinstance(kk, tuple):
+        values = dict(zip([s.name for s in fam.symbols], kk, strict=True))
+    else:
+        values = {power_symbol(fam).name: kk}
+    concrete = text
+    for name, v in values.items():
+        concrete = concrete.replace(f"^{name})", f"^{v})").replace(f"^{name},", f"^{v},")
+    assert_same_multiset(fam.expand(**values), engine_atoms(concrete))
+
+
+@pytest.mark.parametrize("text,kind,kk", [
+    ("cart(cycle(4)^k)", "laplacian", 3),
+    ("direct(path(3)^k)", "transition", 3),
+    ("strong(cycle(4)^k)", "laplacian", 2),  # regular only: d - lambda with d = 3^k - 1
+    ("direct(complete(3)^k)", "normalized", 3),
+])
+def test_other_matrix_kinds_match_engine(text, kind, kk):
+    # source: the exact engine for the same matrix kind
+    fam = S.symbolic_family(text, kind)
+    k = power_symbol(fam)
+    assert_same_multiset(fam.expand(**{k.name: kk}), engine_atoms(text.replace("^k", f"^{kk}"), kind))
+
+
+def test_cycle_eigenvalues_are_the_textbook_cosines():
+    # source: C_n has eigenvalues 2 cos(2 pi j / n) (Brouwer & Haemers §1.4.3 -- from memory)
+    for n in (5, 6, 8):
+        got = S.symbolic_factor(planner.resolve(f"cycle({n})")).eigenvalues()
+        want = [(2 * math.cos(2 * math.pi * j / n), 1) for j in range(n)]
+        merged = {}
+        for v, m in want:
+            key = round(v, 9)
+            merged[key] = merged.get(key, 0) + m
+        assert_same_multiset(got, list(merged.items()))
+
+
+# ----------------------------------------------------- weighted directed cycle
+def weighted_dicycle(ws):
+    t = len(ws)
+    m = sympy.zeros(t, t)
+    for i, w in enumerate(ws):
+        m[i, (i + 1) % t] = w
+    return m
+
+
+@pytest.mark.parametrize("t", [2, 3, 4, 5, 6])
+def test_weighted_directed_cycle(t):
+    # Derivation: for the cycle u_1 -> u_2 -> ... -> u_T -> u_1 with weights w_i, A^T is
+    # (prod w_i) I (every closed walk of length T goes once round), and the characteristic
+    # polynomial is x^T - prod w_i (only the full cycle contributes to det(xI - A)), so the
+    # eigenvalues are (prod w)^(1/T) omega^j, omega = exp(2 pi i / T), each simple.
+    ws = sympy.symbols(f"w1:{t + 1}", positive=True)
+    g = S.SymbolicFactor(weighted_dicycle(ws), "wcycle")
+    vals = g.eigenvalues()
+    assert [m for _, m in vals] == [1] * t
+    prod = sympy.Mul(*ws)
+    for v, _ in vals:
+        assert sympy.simplify(sympy.expand(v**t) - prod) == 0
+    rng = np.random.default_rng(t)
+    for _ in range(2):
+        w = rng.uniform(0.2, 3.0, size=t)
+        subs = {s: sympy.Float(x, 30) for s, x in zip(ws, w, strict=True)}
+        got = [complex(sympy.N(v.subs(subs), 20)) for v, _ in vals]
+        dense = np.zeros((t, t))
+        for i in range(t):
+            dense[i, (i + 1) % t] = w[i]
+        # source: numpy.linalg.eigvals on the explicit weighted cycle
+        want = np.linalg.eigvals(dense)
+        # source: the derived closed form (prod w)^(1/T) omega^j
+        closed = np.prod(w) ** (1 / t) * np.exp(2j * np.pi * np.arange(t) / t)
+        for ref in (want, closed):
+            d = np.abs(np.array(got)[:, None] - np.asarray(ref)[None, :])
+            assert np.all(d.min(axis=1) < 1e-9) and np.all(d.min(axis=0) < 1e-9)
+
+
+def test_symbolic_loop_weight_power():
+    # source: the exact engine with the loop weight substituted (c = 1/2), and
+    # loops(c, K2) has eigenvalues c + 1, c - 1 (J - I shifted by c, from memory)
+    c = sympy.Symbol("c")
+    g = S.SymbolicFactor(sympy.Matrix([[c, 1], [1, c]]), "loops(c, complete(2))")
+    assert {v for v, _ in g.eigenvalues()} == {c + 1, c - 1}
+    k = sympy.Symbol("k", integer=True, positive=True)
+    fam = S.spectrum_family(S.symbolic_product("cart", (g, k)))
+    got = [(v.subs(c, sympy.Rational(1, 2)), m) for v, m in fam.expand(k=3)]
+    assert_same_multiset(got, engine_atoms("cart(loops(0.5, complete(2))^3)"))
+
+
+def test_numeric_factor_converts_exactly():
+    # source: the decimal typed in the expression, 0.1 = 1/10 (exact rational arithmetic)
+    g = S.symbolic_factor(planner.resolve("scale(0.1, complete(2))"))
+    assert set(g.matrix) == {0, sympy.Rational(1, 10)}
+    assert g.eigenvalues() == [(sympy.Rational(1, 10), 1), (sympy.Rational(-1, 10), 1)]
+
+
+# -------------------------------------------------------------------- moments
+MOMENT_CASES = ["cart(cycle(4)^k)", "cart(path(3)^k)", "direct(path(3)^k)",
+                "strong(complete(3)^k)", "mix(1, 0.5, star(3)^k)", "cart(complete(3)^k, path(2))"]
+
+
+@pytest.mark.parametrize("text", MOMENT_CASES)
+def test_moment_polynomials_match_engine(text):
+    node = S.symbolic_expression(text)
+    tr = S.traces(node, "adjacency", 4)
+    (k,) = node.powers()
+    for kk in range(1, 21):
+        atoms = engine_atoms(text.replace("^k", f"^{kk}"))
+        for p in range(1, 5):
+            # source: the exact engine's spectrum, sum of m * lambda^p
+            want = sum(m * v**p for v, m in atoms)
+            scale = sum(m * abs(v) ** p for v, m in atoms)
+            got = float(tr[p].subs(k, kk))
+            assert abs(got - want) <= 1e-9 * max(1.0, scale)
+
+
+def test_cartesian_moments_are_n_power_k_times_polynomial():
+    # source: the exponential formula sum_p tr(M^p) t^p/p! = (tr e^{tA})^k, so tr(M^p)/n^k is
+    # a polynomial of degree <= p in k (Stanley, Enumerative Combinatorics 2, §5.1 -- from memory)
+    node = S.symbolic_expression("cart(path(3)^k)")
+    (k,) = node.powers()
+    for p, t in enumerate(S.traces(node, "adjacency", 4)):
+        poly = sympy.Poly(sympy.expand(sympy.powsimp(t / 3**k, force=True)), k)
+        assert poly.degree() <= p
+
+
+@pytest.mark.parametrize("text,kind,kk", [
+    ("cart(path(3)^k, cycle(4))", "adjacency", 2),
+    ("cart(path(3)^k, cycle(4))", "laplacian", 2),
+    ("strong(path(3)^k)", "adjacency", 3),
+    ("mix(2, 1, path(2)^3)", "adjacency", None),
+])
+def test_moments_match_numpy_traces(text, kind, kk):
+    node = S.symbolic_expression(text)
+    tr = S.traces(node, kind, 4)
+    subs = {s: kk for s in node.powers()}
+    p3 = np.array([[0, 1, 0], [1, 0, 1], [0, 1, 0]], float)
+    c4 = np.roll(np.eye(4), 1, axis=1) + np.roll(np.eye(4), -1, axis=1)
+    p2 = np.array([[0, 1], [1, 0]], float)
+    if kind == "laplacian":
+        p3, c4 = (np.diag(m.sum(axis=1)) - m for m in (p3, c4))
+    if text.startswith("cart"):
+        explicit = fold([p3] * kk + [c4], 1.0, 0.0)
+    elif text.startswith("strong"):
+        explicit = fold([p3] * kk, 1.0, 1.0)
+    else:
+        explicit = fold([p2] * 3, 2.0, 1.0)
+    for p in range(1, 5):
+        # source: numpy trace of the p-th power of the explicitly built product (scipy.sparse.kron)
+        want = np.trace(np.linalg.matrix_power(explicit, p))
+        assert float(tr[p].subs(subs)) == pytest.approx(want, rel=1e-12, abs=1e-9)
+
+
+# --------------------------------------------------------------- closed forms
+@pytest.mark.parametrize("text", ["cart(cycle(5)^k)", "cart(star(3)^k)", "direct(path(3)^k)",
+                                  "direct(cycle(3)^k)", "strong(path(3)^k)", "mix(1, 0.5, star(3)^k)",
+                                  "mix(0, 2, path(4)^k)", "cart(complete(2)^k, star(3)^n)",
+                                  "direct(dicycle(3)^k)"])
+def test_spectral_radius_matches_engine(text):
+    forms, _ = S.closed_forms(S.symbolic_expression(text))
+    rho = forms["spectral_radius"]
+    for kk in (1, 2, 3, 5):
+        concrete = text.replace("^k", f"^{kk}").replace("^n", f"^{kk + 1}")
+        subs = {s: (kk if s.name == "k" else kk + 1) for s in rho.free_symbols}
+        # source: the exact engine's spectrum, max |lambda|
+        want = max(abs(complex(v)) for v, _ in engine_atoms(concrete))
+        assert float(sympy.N(rho.subs(subs), 30)) == pytest.approx(want, rel=1e-12)
+
+
+@pytest.mark.parametrize("text", ["cart(cycle(5)^k)", "cart(path(4)^k)", "strong(path(3)^k)",
+                                  "mix(1, 0.5, star(3)^k)", "cart(complete(3)^k, path(3))"])
+def test_largest_and_smallest_match_engine(text):
+    forms, _ = S.closed_forms(S.symbolic_expression(text))
+    for kk in (1, 2, 4):
+        concrete = text.replace("^k", f"^{kk}")
+        top = planner.top(concrete, m=1).atoms.atoms()[0]
+        # source: the exact engine's extremes (powerspec.planner.top), values and multiplicities
+        assert float(sympy.N(S.evaluate(forms["largest"], k=kk), 30)) == pytest.approx(top[0], rel=1e-12)
+        assert int(S.evaluate(forms["largest_multiplicity"], k=kk)) == top[1]
+        if "smallest" in forms:
+            bottom = planner.top(concrete, m=1, bottom=True).atoms.atoms()[0]
+            assert float(sympy.N(S.evaluate(forms["smallest"], k=kk), 30)) == pytest.approx(
+                bottom[0], rel=1e-12)
+            assert int(S.evaluate(forms["smallest_multiplicity"], k=kk)) == bottom[1]
+
+
+def test_mean_variance_estrada_heat_trace():
+    node = S.symbolic_expression("cart(path(3)^k)")
+    forms, _ = S.closed_forms(node)
+    k = next(iter(node.powers()))
+    # source: the CLT scaling in DESIGN §2 -- the Cartesian power's eigenvalue distribution is the
+    # k-fold convolution, so the variance is k times path(3)'s (eigenvalues 0, +-sqrt 2: 4/3)
+    assert sympy.simplify(forms["variance"] - sympy.Rational(4, 3) * k) == 0
+    assert forms["mean"] == 0
+    lap, _ = S.closed_forms(node, "laplacian")
+    t = next(s for s in lap["heat_trace"].free_symbols if s.name == "t")
+    for kk in (1, 3, 6):
+        atoms = engine_atoms(f"cart(path(3)^{kk})")
+        # source: the exact engine's spectrum, sum of m e^lambda
+        want = sum(m * math.exp(v) for v, m in atoms)
+        assert float(forms["estrada_index"].subs(k, kk)) == pytest.approx(want, rel=1e-12)
+        latoms = engine_atoms(f"cart(path(3)^{kk})", "laplacian")
+        want = sum(m * math.exp(-0.3 * v) for v, m in latoms)
+        assert float(lap["heat_trace"].subs({k: kk, t: 0.3})) == pytest.approx(want, rel=1e-12)
+
+
+def kirchhoff(adj):
+    lap = np.diag(adj.sum(axis=1)) - adj
+    return np.linalg.det(lap[1:, 1:])
+
+
+@pytest.mark.parametrize("kk", [1, 2, 3, 4])
+def test_hypercube_spanning_trees(kk):
+    forms, _ = S.closed_forms(S.symbolic_expression("cart(complete(2)^k)"))
+    tau = forms["spanning_trees"]
+    (k,) = [s for s in tau.free_symbols if s.name == "k"]
+    j = sympy.Symbol("j", integer=True, nonnegative=True)
+    # source: the form asked for, Product over j of (2j)^C(k,j) / 2^k
+    assert sympy.simplify(tau - sympy.Product((2 * j) ** sympy.binomial(k, j), (j, 1, k)) / 2**k) == 0
+    got = int(S.evaluate(tau, k=kk))
+    # source: Q_k has 2^(2^k - k - 1) prod_j j^C(k,j) spanning trees (from memory)
+    assert got == 2 ** (2**kk - kk - 1) * math.prod(jj ** math.comb(kk, jj) for jj in range(1, kk + 1))
+    # source: matrix-tree theorem via numpy.linalg.det on the explicit hypercube
+    q = fold([np.array([[0.0, 1.0], [1.0, 0.0]])] * kk, 1.0, 0.0)
+    assert got == round(kirchhoff(q))
+    log_tau = forms["log_spanning_trees"]
+    assert float(S.evaluate(log_tau, k=kk)) == pytest.approx(math.log(got), rel=1e-12)
+
+
+def test_torus_spanning_trees_three_indices():
+    # source: matrix-tree theorem via numpy.linalg.det on C4 x C4 and C4^3 built with kron
+    forms, _ = S.closed_forms(S.symbolic_expression("cart(cycle(4)^k)"))
+    tau = forms["spanning_trees"]
+    (k,) = [s for s in tau.free_symbols if s.name == "k"]
+    c4 = np.roll(np.eye(4), 1, axis=1) + np.roll(np.eye(4), -1, axis=1)
+    for kk in (1, 2, 3):
+        want = kirchhoff(fold([c4] * kk, 1.0, 0.0))
+        assert int(S.evaluate(tau, k=kk)) == pytest.approx(want, rel=1e-9)
+
+
+# ----------------------------------------------------------------- refusals
+def companion(coeffs):
+    """Companion matrix of x^n + c_{n-1} x^{n-1} + ... + c_0 (coeffs = [c_0, ..., c_{n-1}])."""
+    n = len(coeffs)
+    m = sympy.zeros(n, n)
+    for i in range(1, n):
+        m[i, i - 1] = 1
+    for i, c in enumerate(coeffs):
+        m[i, n - 1] = -c
+    return m
+
+
+def test_irreducible_quintic_is_refused():
+    # x^5 - x - 1 is irreducible with Galois group S5, so not solvable in radicals
+    # (the standard Abel-Ruffini example -- from memory); its companion matrix has it as
+    # characteristic polynomial (checked here with sympy).
+    m = companion([-1, -1, 0, 0, 0])
+    lam = sympy.Symbol("lam")
+    assert sympy.expand(m.charpoly(lam).as_expr() - (lam**5 - lam - 1)) == 0
+    g = S.SymbolicFactor(m, "quintic")
+    with pytest.raises(SymbolicError, match="degree 5"):
+        g.eigenvalues()
+    with pytest.raises(SymbolicError, match="degree 5"):
+        g.eigenvalues(timeout=None)  # the degree guard alone, inline
+    with pytest.raises(SymbolicError):
+        S.spectrum_family(S.symbolic_product("cart", (g, sympy.Symbol("k"))))
+
+
+def _sleeper(seconds, name):
+    time.sleep(seconds)
+    return []
+
+
+def test_time_guard_terminates_the_worker():
+    # a worker that would take 60 s is terminated after 0.3 s with a SymbolicError
+    with pytest.raises(SymbolicError, match="within 0.3 s"):
+        S._guarded(_sleeper, (60, "slow"), 0.3)
+
+
+def test_size_guard():
+    w = sympy.Symbol("w")
+    big = sympy.eye(S.MAX_SYMBOLIC_ORDER + 1) * w
+    with pytest.raises(SymbolicError, match="vertices"):
+        S.SymbolicFactor(big, "big").eigenvalues()
+
+
+@pytest.mark.parametrize("text,exc", [
+    ("cart(complete(2)^j)", ExpressionError),  # index name is reserved
+    ("cart(complete(2)^pi)", ExpressionError),  # a sympy constant, would not round-trip
+    ("scale(2, complete(2)^k)", ExpressionError),
+    ("cart(direct(path(2)^k)^2)", SymbolicError),  # nested symbolic power
+    ("mix(2, 1, path(2)^k)", SymbolicError),  # left fold
+    ("cart(complete(2)", ExpressionError),
+])
+def test_bad_expressions(text, exc):
+    with pytest.raises(exc):
+        S.symbolic_family(text)
+
+
+def test_not_exact_kind_is_refused():
+    with pytest.raises(NotExactError, match="not exact"):
+        S.symbolic_family("direct(path(3)^k)", "laplacian")
+    with pytest.raises(InputError):
+        S.symbolic_report("cdf", "cart(complete(2)^k)")
+
+
+def test_expand_needs_the_power():
+    fam = S.symbolic_family("cart(complete(2)^k)")
+    with pytest.raises(InputError, match="needs a value"):
+        fam.expand()
+    with pytest.raises(InputError):
+        fam.expand(k=0)
+
+
+# ------------------------------------------------------------------- output
+@pytest.mark.parametrize("command", ["spectrum", "top", "moments", "invariants"])
+@pytest.mark.parametrize("text", ["cart(complete(2)^k)", "cart(cycle(5)^k)", "strong(complete(3)^k)"])
+def test_report_strings_round_trip(command, text):
+    report = S.symbolic_report(command, text, latex=True)
+    assert {"expression", "matrix", "order", "method", "symbolic"} <= set(report)
+    node = S.symbolic_expression(text)
+    fam = S.spectrum_family(node)
+    forms, _ = S.closed_forms(node) if command != "spectrum" else ({}, [])
+    originals = {"eigenvalue": fam.eigenvalue, "multiplicity": fam.multiplicity,
+                 "constraint": fam.constraints, "count": fam.count, **forms}
+    values = {"k": 3, "j": 1, "j1": 1, "j2": 1, "t": sympy.Rational(1, 3)}
+    assert sympy.sympify(report["order"]).subs({sympy.Symbol("k"): 3}) == fam.order.subs(
+        power_symbol(fam), 3)
+    for name, text_form in report["symbolic"].items():
+        back = sympy.sympify(text_form)
+        orig = originals[name]
+        a = S.evaluate(back, **values)
+        b = S.evaluate(orig, **values)
+        if isinstance(a, sympy.logic.boolalg.Boolean):
+            assert bool(a) == bool(b)
+        else:
+            # source: sympy evaluating the original expression at the same point
+            assert complex(sympy.N(a, 30)) == pytest.approx(complex(sympy.N(b, 30)))
+    text_out = S.symbolic_text(report)
+    assert report["expression"] in text_out and "=" in text_out
+    assert "\\" in S.symbolic_text(report, latex=True) or command in ("spectrum", "top")
+
+
+def test_report_hypercube_keys():
+    r = S.symbolic_report("spectrum", "cart(complete(2)^k)")
+    assert r["order"] == "2**k"
+    assert r["symbolic"]["eigenvalue"] == "k - 2*j"
+    assert r["symbolic"]["multiplicity"] == "binomial(k, j)"
+    inv = S.symbolic_report("invariants", "cart(complete(2)^k)")["symbolic"]
+    assert sympy.sympify(inv["spectral_radius"]) == sympy.Symbol("k")
