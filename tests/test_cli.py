@@ -114,3 +114,23 @@ def test_python_dash_m_and_demo():
     proc = subprocess.run([sys.executable, "-m", "powerspec", "spectrum", "cart(cycle(5)"],
                           capture_output=True, text=True, timeout=60)
     assert proc.returncode == 2 and proc.stderr.count("\n") == 1
+
+
+def test_symbolic_flag_round_trips_through_sympy(capsys):
+    import sympy
+
+    code, out, _ = run(["spectrum", "cart(complete(2)^k)", "--symbolic", "--json"], capsys)
+    assert code == 0
+    data = json.loads(out)
+    k, j = sympy.symbols("k j")
+    # source: Q_k closed form, eigenvalue k - 2j with multiplicity C(k, j) (textbook)
+    assert sympy.simplify(sympy.sympify(data["symbolic"]["eigenvalue"]) - (k - 2 * j)) == 0
+    assert sympy.sympify(data["order"]) == 2**k
+    code, out, _ = run(["moments", "cart(complete(2)^k)", "--symbolic", "--order", "2",
+                        "--latex"], capsys)
+    assert code == 0 and "k" in out
+
+
+def test_latex_needs_symbolic(capsys):
+    code, _, err = run(["spectrum", "cart(complete(2)^3)", "--latex"], capsys)
+    assert code == 2 and "--symbolic" in err
