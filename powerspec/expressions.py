@@ -250,7 +250,10 @@ def _build(t, base: Path | None) -> Node:
             fn, params = _FACTOR_FUNCS[name]
             _arity(t, len(params), params)
             ints = [_integer(a, f"{name}() argument {p}") for a, p in zip(t.args, params, strict=True)]
-            return Leaf(fn(*ints))
+            f = fn(*ints)
+            if name == "motif":  # echo the expression as written
+                f = factors.Factor(f.adjacency, "motif()", f.closed_form)
+            return Leaf(f)
         if name == "load":
             return _build_load(t, base)
         if name in ("scale", "loops"):

@@ -11,7 +11,7 @@ from __future__ import annotations
 from pathlib import Path
 
 from .algebra import DEFAULT_LIMIT, Engine, Leaf, Node
-from .answers import Answer
+from .answers import Answer, _text_int
 from .errors import InputError, SizeLimitError
 from .expressions import parse
 from .extremes import extremes
@@ -66,9 +66,10 @@ def spectrum(expr, matrix: str = "adjacency", *, limit: int | None = None,
         sp = eng.spectrum(node, matrix)
     except SizeLimitError as exc:
         raise SizeLimitError(
-            f"the exact spectrum of {node.label()} may hold up to {bound} distinct eigenvalues "
-            f"(order {node.order}), over the limit of {eng.limit}; ask for the extremes with "
-            f"'top', or raise --limit ({exc})"
+            f"the exact spectrum of {node.label()} may hold up to {_text_int(bound)} distinct "
+            f"eigenvalues ({_text_int(node.order)} vertices), over the limit of {eng.limit} "
+            f"({exc}); ask for the extremes with 'top', for distribution questions with "
+            "'cdf', 'count' or 'quantile', or raise --limit"
         ) from exc
     method = "exact: eigenvalues combined from the factors' spectra"
     if len(sp) < bound:

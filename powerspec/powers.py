@@ -59,7 +59,7 @@ def outer(a: Spectrum, b: Spectrum, mode: str, budget: int) -> Spectrum:
     if pairs > budget:
         raise SizeLimitError(
             f"combining {len(a)} by {len(b)} distinct eigenvalues needs {pairs} pairs, "
-            f"more than the budget of {budget}; ask for extremes (top) or raise the limit"
+            f"more than the budget of {budget}"
         )
     mult = outer_mult(a.mult, b.mult, a.order, b.order)
     order = a.order * b.order
@@ -117,7 +117,7 @@ def _check_atoms(s: Spectrum, limit: int) -> None:
     if len(s) > limit:
         raise SizeLimitError(
             f"an intermediate power already has {len(s)} distinct eigenvalues, over the "
-            f"limit of {limit}; ask for extremes (top) or raise the limit"
+            f"limit of {limit}"
         )
 
 
