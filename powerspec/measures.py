@@ -434,7 +434,7 @@ class Spectrum:
             return self._values.real if self._values.dtype.kind == "c" else self._values
         with np.errstate(over="ignore"):
             r = np.exp(self._logabs) * np.cos(2 * np.pi * self._turns)
-        return np.where(self._turns == 0.5, -np.exp(self._logabs), r)
+            return np.where(self._turns == 0.5, -np.exp(self._logabs), r)
 
     def affine(self, shift: complex, factor: complex = 1.0) -> Spectrum:
         """The spectrum of shift + factor * M (exact map, same multiplicities).
