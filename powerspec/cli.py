@@ -113,6 +113,14 @@ def build_parser() -> argparse.ArgumentParser:
                     help="degree used for directed factors' Laplacians")
     _symbolic(iv)
 
+    pl = sub.add_parser("plot", help="draw the spectrum against a reference law")
+    pl.add_argument("expression")
+    pl.add_argument("-o", "--output", required=True, metavar="FILE", help="a .png, .pdf or .svg file")
+    pl.add_argument("--bins", type=_positive_int, default=60)
+    pl.add_argument("--matrix", default="adjacency", choices=MATRIX_KINDS)
+    pl.add_argument("--degrees", default="out", choices=("out", "in"))
+    pl.add_argument("--limit", type=_positive_int, default=None)
+
     d = sub.add_parser("demo", help="the built-in worked scenario")
     d.add_argument("--output", metavar="FILE", default=None)
     return p
@@ -151,6 +159,11 @@ def _run(args: argparse.Namespace) -> str:
     elif args.command == "top":
         ans = planner.top(args.expression, args.m, args.matrix, bottom=args.bottom,
                           limit=args.limit, degrees=args.degrees)
+    elif args.command == "plot":
+        from .plots import plot
+
+        return plot(args.expression, args.output, args.matrix, bins=args.bins, limit=args.limit,
+                    degrees=args.degrees) + "\n"
     elif args.command == "demo":
         from .demo import run_demo
 
@@ -169,7 +182,7 @@ def main(argv: Sequence[str] | None = None) -> int:
             parser.print_help()
             return EXIT_USER_ERROR
         text = _run(args)
-        if getattr(args, "output", None):
+        if getattr(args, "output", None) and args.command != "plot":
             write_atomic(args.output, text)
         else:
             sys.stdout.write(text)

@@ -1,0 +1,33 @@
+"""`powerspec plot`: files are written atomically in the asked format; bad requests exit 2."""
+
+from __future__ import annotations
+
+import pytest
+
+from powerspec.cli import main
+
+pytest.importorskip("matplotlib")
+
+
+@pytest.mark.parametrize("expr,suffix,magic", [
+    ("cart(complete(2)^40)", "png", b"\x89PNG"),
+    ("cart(motif()^3)", "svg", b"<?xml"),
+    ("direct(path(3)^3)", "pdf", b"%PDF"),
+])
+def test_plot_writes_file(tmp_path, capsys, expr, suffix, magic):
+    out = tmp_path / f"s.{suffix}"
+    assert main(["plot", expr, "-o", str(out)]) == 0
+    assert out.read_bytes().startswith(magic)
+    assert [p.name for p in tmp_path.iterdir()] == [out.name]  # no temporary left behind
+    assert "exact spectrum" in capsys.readouterr().out
+
+
+@pytest.mark.parametrize("argv,phrase", [
+    (["plot", "cart(cycle(4)^2)", "-o", "x.gif"], ".png, .pdf or .svg"),
+    (["plot", "cart(dicycle(4)^2)", "-o", "x.png"], "complex"),
+    (["plot", "cart(cycle(4)^2)", "-o", "/no/such/dir/x.png"], "does not exist"),
+])
+def test_plot_errors(argv, phrase, capsys):
+    assert main(argv) == 2
+    err = capsys.readouterr().err
+    assert phrase in err and err.count("\n") == 1
