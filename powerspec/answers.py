@@ -148,7 +148,7 @@ def _json_value(v: Any) -> Any:
         return [_json_value(v.real), _json_value(v.imag)]
     if isinstance(v, mpmath.mpf):
         f = float(v)
-        if math.isfinite(f) and abs(f) < 1e300:
+        if math.isfinite(f) and abs(f) < 1e300 and (f != 0.0 or v == 0) and (abs(f) > 1e-300 or f == 0):
             return f
         return RawNumber(mpmath.nstr(v, 17, min_fixed=1, max_fixed=0).replace("e+", "e"))
     if hasattr(v, "__float__"):

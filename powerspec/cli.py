@@ -103,6 +103,7 @@ def build_parser() -> argparse.ArgumentParser:
     mo = sub.add_parser("moments", help="exact spectral moments tr(M^p)")
     mo.add_argument("expression")
     mo.add_argument("--order", type=_positive_int, default=4, help="highest power p (4)")
+    mo.add_argument("--per-vertex", action="store_true", help="tr(M^p) divided by the order")
     _common(mo)
     _symbolic(mo)
 
@@ -111,6 +112,7 @@ def build_parser() -> argparse.ArgumentParser:
     _common(iv, matrix=False)
     iv.add_argument("--degrees", default="out", choices=("out", "in"),
                     help="degree used for directed factors' Laplacians")
+    iv.add_argument("--time", type=_real, default=1.0, help="heat-kernel time t (1)")
     _symbolic(iv)
 
     pl = sub.add_parser("plot", help="draw the spectrum against a reference law")
@@ -148,11 +150,11 @@ def _run(args: argparse.Namespace) -> str:
         from .moments import moment_answer
 
         ans = moment_answer(args.expression, order=args.order, matrix=args.matrix,
-                            degrees=args.degrees)
+                            degrees=args.degrees, per_vertex=args.per_vertex)
     elif args.command == "invariants":
         from .invariants import invariants
 
-        ans = invariants(args.expression, limit=args.limit, degrees=args.degrees)
+        ans = invariants(args.expression, limit=args.limit, degrees=args.degrees, t=args.time)
     elif args.command == "spectrum":
         ans = planner.spectrum(args.expression, args.matrix, limit=args.limit,
                                degrees=args.degrees)

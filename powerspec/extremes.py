@@ -130,7 +130,6 @@ def _flatten(engine: Engine, node: Node, kind: str):
     if rule is not None:
         comb, use, post = rule, kind, (0.0, 1.0)
     else:
-        engine.spectrum  # noqa: B018 - regularity is checked below
         deg = engine.degrees(node)
         if len(deg) != 1:
             engine.spectrum(node, kind)  # raises the NotExactError with its reason
