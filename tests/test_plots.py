@@ -22,6 +22,13 @@ def test_plot_writes_file(tmp_path, capsys, expr, suffix, magic):
     assert "exact spectrum" in capsys.readouterr().out
 
 
+def test_plot_beyond_enumeration_uses_moments_and_extremes(tmp_path, capsys):
+    out = tmp_path / "big.png"
+    assert main(["plot", "cart(motif()^200)", "-o", str(out)]) == 0
+    assert out.read_bytes().startswith(b"\x89PNG")
+    assert "exact moments and extremes" in capsys.readouterr().out
+
+
 @pytest.mark.parametrize("argv,phrase", [
     (["plot", "cart(cycle(4)^2)", "-o", "x.gif"], ".png, .pdf or .svg"),
     (["plot", "cart(dicycle(4)^2)", "-o", "x.png"], "complex"),
