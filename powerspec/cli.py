@@ -143,7 +143,8 @@ def _run(args: argparse.Namespace) -> str:
         from . import distribution
 
         fn = getattr(distribution, args.command)
-        point = {"cdf": (args.x,), "count": (args.a, args.b), "quantile": (args.q,)}[args.command]
+        names = {"cdf": ("x",), "count": ("a", "b"), "quantile": ("q",)}[args.command]
+        point = tuple(getattr(args, n) for n in names)
         ans = fn(args.expression, *point, args.matrix, method=args.method, tol=args.tol,
                  limit=args.limit, degrees=args.degrees)
     elif args.command == "moments":
