@@ -42,11 +42,11 @@ from .factors import (  # noqa: E402
     star,
 )
 from .measures import Spectrum  # noqa: E402
-from .planner import spectrum, top  # noqa: E402
+from .planner import cdf, count, quantile, spectrum, top  # noqa: E402
 
 __all__ = [
     "Answer", "Engine", "ExpressionError", "Factor", "FactorFileError", "InputError", "Leaf",
     "NotExactError", "PowerspecError", "Product", "SizeLimitError", "Spectrum", "SymbolicError",
     "complete", "complete_bipartite", "cycle", "dicycle", "from_matrix", "load", "loops",
-    "motif", "parse", "path", "scale", "spectrum", "star", "top",
+    "motif", "parse", "path", "scale", "spectrum", "star", "top", "cdf", "count", "quantile",
 ]

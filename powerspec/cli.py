@@ -140,9 +140,7 @@ def _run(args: argparse.Namespace) -> str:
                               matrix=getattr(args, "matrix", "adjacency"), latex=args.latex, **extra)
         return dump_json(rep) + "\n" if args.json else symbolic_text(rep, latex=args.latex)
     if args.command in ("cdf", "count", "quantile"):
-        from . import distribution
-
-        fn = getattr(distribution, args.command)
+        fn = getattr(planner, args.command)
         names = {"cdf": ("x",), "count": ("a", "b"), "quantile": ("q",)}[args.command]
         point = tuple(getattr(args, n) for n in names)
         ans = fn(args.expression, *point, args.matrix, method=args.method, tol=args.tol,

@@ -8,11 +8,12 @@ builds an n^k matrix.
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 from .algebra import DEFAULT_LIMIT, Engine, Leaf, Node
 from .answers import Answer, _text_int
-from .errors import InputError, SizeLimitError
+from .errors import InputError, NotExactError, SizeLimitError
 from .expressions import parse
 from .extremes import extremes
 from .factors import Factor, from_matrix
@@ -93,3 +94,135 @@ def top(expr, m: int = 5, matrix: str = "adjacency", *, bottom: bool = False,
     return Answer("top", node.label(), _matrix_label(matrix, node, degrees), node.order,
                   "exact: " + how, atoms=sp,
                   inputs={"m": m, "bottom": bottom, "limit": eng.limit, "degrees": degrees})
+
+
+# ------------------------------------------------------- distribution queries
+def _moment_fallback(node: Node, matrix: str, exc: NotExactError) -> bool:
+    # The exact, bracket and law tiers need a spectrum that follows from the factors';
+    # the moments of D(x)D - A(x)A still do, so CMS bounds answer there.
+    return matrix in ("laplacian", "signless") and not node.directed and "not exact" in str(exc)
+
+
+def _moment_cdf(node: Node, matrix: str, degrees: str):
+    """(x -> (lower, upper) bounds on F(x), method text) from exact moments, computed once."""
+    from .momentbounds import DEFAULT_ORDER, cdf_bounds, cdf_bounds_from_moments
+    from .moments import MomentEngine
+
+    if node.directed:
+        cdf_bounds_from_moments(node, matrix, 0.0, direction=degrees)  # raises the clear error
+    tau = MomentEngine(DEFAULT_ORDER, degrees).normalised(node, matrix)
+    n_vert = node.order if isinstance(node.order, int) else None
+    how = (f"Chebyshev-Markov-Stieltjes bounds from the exact moments up to order {DEFAULT_ORDER} "
+           f"({DEFAULT_ORDER // 2 + 1}-node quadrature through x, exact rational recurrence)")
+    return (lambda x: cdf_bounds(tau, x, lattice=n_vert)), how
+
+
+def _moment_answer(query: str, node: Node, matrix: str, degrees: str, est, lo, hi, how: str,
+                   inputs: dict) -> Answer:
+    return Answer(query, node.label(), _matrix_label(matrix, node, degrees), node.order,
+                  "moments: " + how + "; estimate: midpoint of the bounds", estimate=est,
+                  lower=lo, upper=hi, inputs={**inputs, "degrees": degrees, "tier": "moments"})
+
+
+def cdf(expr, x: float, matrix: str = "adjacency", *, method: str = "auto", tol: float | None = None,
+        limit: int | None = None, degrees: str = "out") -> Answer:
+    """Fraction of eigenvalues <= x with rigorous bounds (see :mod:`powerspec.distribution`).
+
+    Laplacian-type spectra of non-regular direct/strong products, which do not
+    factor, get Chebyshev-Markov-Stieltjes bounds from their exact moments.
+
+    >>> a = cdf("cart(complete(2)^3)", 0.0)
+    >>> (a.lower, a.upper)
+    (0.5, 0.5)
+    """
+    from . import distribution
+
+    node = resolve(expr)
+    try:
+        return distribution.cdf(node, x, matrix, method=method, tol=tol, limit=limit, degrees=degrees)
+    except NotExactError as exc:
+        if not _moment_fallback(node, matrix, exc) or method not in ("auto", "law"):
+            raise
+    bounds, how = _moment_cdf(node, matrix, degrees)
+    lo, hi = bounds(x)
+    return _moment_answer("cdf", node, matrix, degrees, (lo + hi) / 2, lo, hi, how,
+                          {"x": x, "method": method})
+
+
+def count(expr, a: float, b: float, matrix: str = "adjacency", *, method: str = "auto",
+          tol: float | None = None, limit: int | None = None, degrees: str = "out") -> Answer:
+    """Number of eigenvalues in [a, b] with rigorous bounds, out of the exact order.
+
+    >>> count("cart(complete(2)^4)", -0.5, 0.5).estimate    # C(4, 2) = 6 eigenvalues at 0
+    6
+    """
+    from . import distribution
+
+    node = resolve(expr)
+    try:
+        return distribution.count(node, a, b, matrix, method=method, tol=tol, limit=limit,
+                                  degrees=degrees)
+    except NotExactError as exc:
+        if not _moment_fallback(node, matrix, exc) or method not in ("auto", "law"):
+            raise
+    if a > b:
+        raise InputError(f"count needs a <= b, got a = {a}, b = {b}")
+    bounds, how = _moment_cdf(node, matrix, degrees)
+    # Bounds are on F(x) = P(X <= x); F(a-) >= F(a - delta) for any delta > 0.
+    delta = 1e-9 * max(1.0, abs(a), abs(b))
+    lo_a = bounds(a - delta)[0]
+    hi_a = bounds(a)[1]
+    lo_b, hi_b = bounds(b)
+    n = node.order
+    if not isinstance(n, int):
+        raise SizeLimitError("the product's order is kept factored; ask for cdf (a fraction) instead")
+    # F(b) >= lo_b and F(a-) <= hi_a; F(b) <= hi_b and F(a-) >= lo_a.
+    lower = max(0, math.ceil(n * max(0.0, lo_b - hi_a) - 1e-9))
+    upper = min(n, math.floor(n * min(1.0, hi_b - lo_a) + 1e-9))
+    return _moment_answer("count", node, matrix, degrees, (lower + upper) // 2, lower, upper, how,
+                          {"a": a, "b": b, "method": method})
+
+
+def quantile(expr, q: float, matrix: str = "adjacency", *, method: str = "auto",
+             tol: float | None = None, limit: int | None = None, degrees: str = "out") -> Answer:
+    """The q-quantile of the eigenvalue distribution with rigorous bounds.
+
+    >>> quantile("cart(complete(2)^4)", 0.5).estimate
+    0.0
+    """
+    from . import distribution
+
+    node = resolve(expr)
+    try:
+        return distribution.quantile(node, q, matrix, method=method, tol=tol, limit=limit,
+                                     degrees=degrees)
+    except NotExactError as exc:
+        if not _moment_fallback(node, matrix, exc) or method not in ("auto", "law"):
+            raise
+    if not (0.0 < q < 1.0):
+        raise InputError(f"q must lie strictly between 0 and 1, got {q}")
+    factors = node.leaves()
+    if any((f.adjacency.data < 0).any() for f in factors):
+        raise NotExactError("moment-based quantiles need non-negative weights (for a support bound)")
+    # With non-negative weights the Laplacian/signless spectrum lies in [0, 2 d_max] (Gershgorin).
+    eng = _engine(matrix, limit, degrees)
+    top_degree = float(max(eng.degrees(node).real_parts()))
+    lo_x, hi_x = 0.0, 2.0 * top_degree
+    bounds, how = _moment_cdf(node, matrix, degrees)
+
+    def bisect(side: int) -> float:
+        # smallest x (to 1e-7 of the range) whose bound on F(x) reaches q
+        a, b = lo_x, hi_x
+        while b - a > 1e-6 * max(1.0, hi_x):
+            mid = (a + b) / 2
+            if bounds(mid)[side] >= q:
+                b = mid
+            else:
+                a = mid
+        return a, b
+
+    # Q >= inf{x: upper(x) >= q} and Q <= inf{x: lower(x) >= q}
+    lower = bisect(1)[0]
+    upper = bisect(0)[1]
+    return _moment_answer("quantile", node, matrix, degrees, (lower + upper) / 2, lower, upper,
+                          "inverted " + how, {"q": q, "method": method})

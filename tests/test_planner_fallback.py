@@ -1,0 +1,55 @@
+"""Non-factoring Laplacians: cdf/count/quantile fall back to moment bounds that must hold."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+import powerspec as ps
+from tests.reference import kron_product
+
+
+def _explicit_laplacian(a, b, ca, cb, signless=False):
+    m = kron_product(a, b, ca, cb)
+    d = np.diag(m.sum(1))
+    return d + m if signless else d - m
+
+
+CASES = [
+    ("direct(path(3), star(4))", "p3", "s4", 0.0, 1.0),
+    ("strong(path(3), star(3))", "p3", "s3", 1.0, 1.0),
+    ("direct(path(4), path(3))", "p4", "p3", 0.0, 1.0),
+]
+
+
+def _mats():
+    p = {n: ps.path(n).adjacency.toarray() for n in (3, 4)}
+    s = {n: ps.star(n).adjacency.toarray() for n in (3, 4)}
+    return {"p3": p[3], "p4": p[4], "s3": s[3], "s4": s[4]}
+
+
+@pytest.mark.parametrize("expr,fa,fb,ca,cb", CASES)
+@pytest.mark.parametrize("kind", ["laplacian", "signless"])
+def test_moment_fallback_bounds_hold(expr, fa, fb, ca, cb, kind):
+    m = _mats()
+    # source: numpy.linalg.eigvalsh on D -+ A of the product built with scipy.sparse.kron
+    ev = np.sort(np.linalg.eigvalsh(_explicit_laplacian(m[fa], m[fb], ca, cb, kind == "signless")))
+    n = len(ev)
+    for x in np.r_[np.linspace(ev[0] - 1, ev[-1] + 1, 5), ev[[0, n // 2, -1]]]:
+        a = ps.cdf(expr, float(x), kind)
+        truth = np.sum(ev <= x + 1e-12) / n
+        assert a.lower - 1e-12 <= truth <= a.upper + 1e-12
+        assert "moments" in a.method
+    for lo_x, hi_x in ((0.0, 2.0), (1.0, 4.5)):
+        c = ps.count(expr, lo_x, hi_x, kind)
+        truth = int(np.sum((ev >= lo_x - 1e-12) & (ev <= hi_x + 1e-12)))
+        assert c.lower <= truth <= c.upper
+    for q in (0.1, 0.7):
+        qa = ps.quantile(expr, q, kind)
+        truth = ev[int(np.ceil(q * n)) - 1]  # smallest x with F(x) >= q
+        assert qa.lower - 1e-9 <= truth <= qa.upper + 1e-9
+
+
+def test_fallback_not_used_for_adjacency_or_explicit_exact():
+    with pytest.raises(ps.NotExactError):
+        ps.cdf("direct(path(3), star(4))", 1.0, "laplacian", method="exact")
