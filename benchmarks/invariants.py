@@ -15,6 +15,11 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as sla
 
+import sys  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+
 from powerspec.counts import log2 as count_log2
 from powerspec.expressions import parse
 from powerspec.invariants import invariants

@@ -28,7 +28,7 @@ from .counts import log2 as count_log2
 from .errors import InputError, NotExactError, SizeLimitError
 from .factors import Factor
 from .measures import LINEAR_MAX, Spectrum, mult_array, outer_mult, polar_add, polar_mul
-from .powers import composition_count, outer, power
+from .powers import check_pairs, composition_count, outer, power
 from .products import (
     MATRIX_KINDS,
     MATRIX_RULES,
@@ -284,12 +284,7 @@ def fold_outer(comb: Combination, a: Spectrum, b: Spectrum, budget: int) -> Spec
     >>> fold_outer(Combination(2.0, 1.0), x, x, 10).atoms()
     [(5.0, 1), (8.0, 2), (12.0, 1)]
     """
-    pairs = len(a) * len(b)
-    if pairs > budget:
-        raise SizeLimitError(
-            f"combining {len(a)} by {len(b)} distinct eigenvalues needs {pairs} pairs, "
-            f"more than the budget of {budget}"
-        )
+    check_pairs(a, b, budget)
     mult = outer_mult(a.mult, b.mult, a.order, b.order)
     order = a.order * b.order
     if not (a.is_polar or b.is_polar):

@@ -162,6 +162,28 @@ def _multinomial(k: int, counts) -> int:
     return out
 
 
+def _start_state(sizes: list[int], parts) -> tuple:
+    """All copies of every operand on its first (most extreme) atom."""
+    start: list[int] = []
+    for r, (_, k) in zip(sizes, parts, strict=True):
+        start.extend([k] + [0] * (r - 1))
+    return tuple(start)
+
+
+def _push_successors(state: tuple, offsets, seen: set, heap: list, key) -> None:
+    """Push every state reached by moving one copy to the next atom of its operand."""
+    for j in range(len(offsets) - 1):
+        for p in range(offsets[j], offsets[j + 1] - 1):
+            if state[p]:
+                nxt = list(state)
+                nxt[p] -= 1
+                nxt[p + 1] += 1
+                nxt = tuple(nxt)
+                if nxt not in seen:
+                    seen.add(nxt)
+                    heapq.heappush(heap, (-key(nxt), nxt))
+
+
 def _best_first_add(parts: list[tuple[Spectrum, int]], m: int) -> Spectrum:
     """Atoms of the additive combination with the m largest real parts (exact)."""
     atoms = []  # per operand: values sorted by real part descending, multiplicities
@@ -170,10 +192,7 @@ def _best_first_add(parts: list[tuple[Spectrum, int]], m: int) -> Spectrum:
         atoms.append((sp.values[o], [int(x) for x in sp.mult[o].tolist()]))
     offsets = np.cumsum([0] + [len(v) for v, _ in atoms])
     reals = np.concatenate([np.real(v) for v, _ in atoms])
-    start = []
-    for (v, _), (_, k) in zip(atoms, parts, strict=True):
-        start.extend([k] + [0] * (len(v) - 1))
-    start = tuple(start)
+    start = _start_state([len(v) for v, _ in atoms], parts)
 
     def key(state):
         return float(np.dot(state, reals))
@@ -192,17 +211,7 @@ def _best_first_add(parts: list[tuple[Spectrum, int]], m: int) -> Spectrum:
         val, mult = _state_value_add(state, atoms, parts, offsets)
         found_vals.append(val)
         found_mult.append(mult)
-        for j in range(len(atoms)):
-            lo, hi = offsets[j], offsets[j + 1]
-            for p in range(lo, hi - 1):
-                if state[p]:
-                    nxt = list(state)
-                    nxt[p] -= 1
-                    nxt[p + 1] += 1
-                    nxt = tuple(nxt)
-                    if nxt not in seen:
-                        seen.add(nxt)
-                        heapq.heappush(heap, (-key(nxt), nxt))
+        _push_successors(state, offsets, seen, heap, key)
         next_level = -heap[0][0] if heap else -math.inf
         if len(found_vals) >= m and next_level < level - RTOL * scale:
             sp = Spectrum(np.array(found_vals), mult_array(found_mult))
@@ -261,10 +270,7 @@ def _best_first_mul(parts, m: int, sigma: float, order: int) -> Spectrum:
         # Every eigenvalue has a zero factor: the product is the zero spectrum.
         _check_bits(order.bit_length(), "the eigenvalue at s = 0")
         return Spectrum.from_values([0.0], [order])
-    start = []
-    for cj, (_, k) in zip(cls, parts, strict=True):
-        start.extend([k] + [0] * (len(cj) - 1))
-    start = tuple(start)
+    start = _start_state([len(cj) for cj in cls], parts)
 
     def key(state):
         return float(np.dot(state, logs))
@@ -288,16 +294,7 @@ def _best_first_mul(parts, m: int, sigma: float, order: int) -> Spectrum:
         counted += sp.order
         found.append(sp)
         raw += len(sp)
-        for j in range(len(cls)):
-            for p in range(offsets[j], offsets[j + 1] - 1):
-                if state[p]:
-                    nxt = list(state)
-                    nxt[p] -= 1
-                    nxt[p + 1] += 1
-                    nxt = tuple(nxt)
-                    if nxt not in seen:
-                        seen.add(nxt)
-                        heapq.heappush(heap, (-key(nxt), nxt))
+        _push_successors(state, offsets, seen, heap, key)
         if not heap:
             break
         next_level = -heap[0][0]

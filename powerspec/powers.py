@@ -49,18 +49,23 @@ def composition_count(k: int, r: int) -> int:
     return math.comb(k + r - 1, r - 1)
 
 
-def outer(a: Spectrum, b: Spectrum, mode: str, budget: int) -> Spectrum:
-    """The spectrum {a_i + b_j} (add) or {a_i * b_j} (mul), merged; exact multiplicities.
-
-    >>> outer(Spectrum.from_values([1, -1]), Spectrum.from_values([1, -1]), "add", 100).atoms()
-    [(-2.0, 1), (0.0, 2), (2.0, 1)]
-    """
+def check_pairs(a: Spectrum, b: Spectrum, budget: int) -> None:
+    """Raise SizeLimitError before combining when len(a) * len(b) exceeds the pair budget."""
     pairs = len(a) * len(b)
     if pairs > budget:
         raise SizeLimitError(
             f"combining {len(a)} by {len(b)} distinct eigenvalues needs {pairs} pairs, "
             f"more than the budget of {budget}"
         )
+
+
+def outer(a: Spectrum, b: Spectrum, mode: str, budget: int) -> Spectrum:
+    """The spectrum {a_i + b_j} (add) or {a_i * b_j} (mul), merged; exact multiplicities.
+
+    >>> outer(Spectrum.from_values([1, -1]), Spectrum.from_values([1, -1]), "add", 100).atoms()
+    [(-2.0, 1), (0.0, 2), (2.0, 1)]
+    """
+    check_pairs(a, b, budget)
     mult = outer_mult(a.mult, b.mult, a.order, b.order)
     order = a.order * b.order
     # Sums add absolute rounding errors; products of doubles err only relatively.
