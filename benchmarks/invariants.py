@@ -9,14 +9,13 @@ Plain script: ``python benchmarks/invariants.py`` (about a minute).
 from __future__ import annotations
 
 import math
+import sys  # noqa: E402
 import time
+from pathlib import Path  # noqa: E402
 
 import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as sla
-
-import sys  # noqa: E402
-from pathlib import Path  # noqa: E402
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
