@@ -302,9 +302,11 @@ def test_random_trees_adjacency_and_degrees(case):
     # grows like eps^(1/multiplicity), so the distance check is loose there and the traces
     # tr(M^p) -- computed by explicit matrix powers, no eigensolver -- pin the multiset down.
     symmetric = np.array_equal(explicit, explicit.T)
-    assert multiset_distance(got, want) <= (1e-8 if symmetric else 3e-3) * scale
+    # (numpy's error on a defective 128-vertex example was seen at 8.5e-3 * scale, hence
+    # only a sanity bound there; the traces below are the precise check)
+    assert multiset_distance(got, want) <= (1e-8 if symmetric else 5e-2) * scale
     power_ = np.eye(explicit.shape[0])
-    for p in range(1, 7):
+    for p in range(1, 7 if symmetric else 11):
         power_ = power_ @ explicit
         tr_engine = complex(np.sum(got**p))
         assert abs(tr_engine - np.trace(power_)) <= 1e-9 * max(1.0, scale) ** p * len(got)
