@@ -43,6 +43,9 @@ DEFAULT_LIMIT = 2_000_000
 PAIR_FACTOR = 4
 """A single combination step may form at most PAIR_FACTOR * limit pairs."""
 
+BOUND_CAP = 2**63
+"""Returned by Engine.bound when the bound exceeds 2^62 (it is then only 'enormous')."""
+
 MAX_MULT_BYTES = 2 * 2**30
 """Memory allowed for the exact multiplicities of one spectrum (atoms x bits of the order)."""
 
@@ -267,7 +270,7 @@ class Engine:
                 total += min((r - 1) * math.log2(k + r - 1), child_bits)
         total = min(total, count_log2(node.order))
         if total > 62:
-            return 2**63  # far beyond any limit; the exact value is not needed
+            return BOUND_CAP  # far beyond any limit; the exact value is not needed
         exact = 1
         for child, k in node.operands:
             r = self.bound(child, use)

@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 from pathlib import Path
 
-from .algebra import DEFAULT_LIMIT, Engine, Leaf, Node
+from .algebra import BOUND_CAP, DEFAULT_LIMIT, Engine, Leaf, Node
 from .answers import Answer, _text_int
 from .errors import InputError, NotExactError, SizeLimitError
 from .expressions import parse
@@ -33,6 +33,10 @@ def resolve(expr, base_dir: str | Path | None = None) -> Node:
     if isinstance(expr, Factor):
         return Leaf(expr)
     return Leaf(from_matrix(expr))
+
+
+def _bound_text(bound: int) -> str:
+    return "more than 4.6e18" if bound >= BOUND_CAP else "up to " + _text_int(bound)
 
 
 def _engine(matrix: str, limit: int | None, degrees: str) -> Engine:
@@ -67,7 +71,7 @@ def spectrum(expr, matrix: str = "adjacency", *, limit: int | None = None,
         sp = eng.spectrum(node, matrix)
     except SizeLimitError as exc:
         raise SizeLimitError(
-            f"the exact spectrum of {node.label()} may hold up to {_text_int(bound)} distinct "
+            f"the exact spectrum of {node.label()} may hold {_bound_text(bound)} distinct "
             f"eigenvalues ({_text_int(node.order)} vertices), over the limit of {eng.limit} "
             f"({exc}); ask for the extremes with 'top', for distribution questions with "
             "'cdf', 'count' or 'quantile', or raise --limit"
