@@ -192,6 +192,10 @@ class Engine:
         if rule is not None:
             return self._combine(rule, [(self.spectrum(c, kind), k) for c, k in node.operands])
         deg = self.degrees(node)
+        if len(deg) != 1 and kind in ("laplacian", "signless"):
+            blocks = self._one_irregular(node, kind)
+            if blocks is not None:
+                return blocks
         if len(deg) != 1:
             lo, hi = _real_range(deg)
             raise NotExactError(
@@ -205,6 +209,53 @@ class Engine:
             raise InputError(f"the {kind} matrix needs non-zero degrees; {node.label()} has degree 0")
         shift, factor = REGULAR_FORM[kind](d)
         return self.spectrum(node, "adjacency").affine(shift, factor)
+
+    def _one_irregular(self, node: Product, kind: str) -> Spectrum | None:
+        """D -+ A of G o H with G one irregular factor and H regular of degree e, or None.
+
+        With A_H triangularised (Schur), D -+ A becomes block triangular with one
+        n x n diagonal block per eigenvalue mu of A_H:
+        (a + b e) D_G + a e I -+ ((a + b mu) A_G + a mu I).  Its eigenvalues, taken
+        with mu's multiplicity, are the spectrum -- exact up to the eigensolver.
+        """
+        comb = node.comb
+        if comb.mode is None:
+            return None
+        irregular = [i for i, (c, _) in enumerate(node.operands) if not self.is_regular(c)]
+        if len(irregular) != 1:
+            return None
+        i = irregular[0]
+        g_node, copies = node.operands[i]
+        if not isinstance(g_node, Leaf) or copies != 1 or g_node.factor.n > 400:
+            return None
+        rest = node.operands[:i] + node.operands[i + 1:]
+        if not rest:
+            return None
+        h = rest[0][0] if len(rest) == 1 and rest[0][1] == 1 else Product(comb, rest)
+        if not self.fits(h, "adjacency"):
+            return None
+        mu_sp = self.spectrum(h, "adjacency")
+        if mu_sp.is_polar or len(mu_sp) * g_node.factor.n > self.budget:
+            return None
+        e = self.degrees(h).value(0)
+        f = g_node.factor
+        d_g = np.diag(f.degrees(self.direction))
+        a_g = f.adjacency.toarray()
+        sign = -1.0 if kind == "laplacian" else 1.0
+        a, b = comb.a, comb.b
+        vals, mults = [], []
+        for mu, m in zip(mu_sp.values.tolist(), mu_sp.mult.tolist(), strict=True):
+            eye = np.eye(f.n)
+            block = (a + b * e) * d_g + a * e * eye + sign * ((a + b * mu) * a_g + a * mu * eye)
+            symmetric = not (f.directed or np.iscomplex(mu))
+            ev = np.linalg.eigvalsh(block) if symmetric else np.linalg.eigvals(block)
+            vals.append(ev)
+            mults.extend([int(m)] * f.n)
+        values = np.concatenate(vals)
+        scale = max(1.0, float(np.max(np.abs(values), initial=0.0)))
+        order = node.order
+        return Spectrum(values, mult_array(mults, order), order=order,
+                        atol=1e-12 * scale * max(1, f.n))
 
     # --------------------------------------------------------- combining
     def _combine(self, comb: Combination, parts: list[tuple[Spectrum, int]]) -> Spectrum:

@@ -80,7 +80,7 @@ def test_output_file_atomic(tmp_path, capsys):
         (["spectrum", "cart(cycle(5) cycle(4))"], "column"),
         (["spectrum", 'cart(load("/no/such/file.mtx")^2)'], "/no/such/file.mtx"),
         (["spectrum", "cart(motif()^200)"], "limit"),
-        (["spectrum", "direct(path(3), cycle(4))", "--matrix", "laplacian"], "not exact"),
+        (["spectrum", "direct(path(3), star(3))", "--matrix", "laplacian"], "not exact"),
         (["spectrum", "cart(dicycle(3)^2)", "--matrix", "normalized"], "undirected"),
         (["spectrum", "cart(cycle(5)^2)", "--limit", "0"], "positive"),
         (["spectrum", "cart(cycle(5)^2)", "--matrix", "weird"], "invalid choice"),

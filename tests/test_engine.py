@@ -117,7 +117,7 @@ def test_direct_overflow_is_mpmath_not_inf():
 def test_laplacian_of_direct_product_not_exact_for_irregular():
     # source: DESIGN §2 -- D_G (x) D_H - A_G (x) A_H does not factor for irregular factors
     with pytest.raises(ps.NotExactError, match="not exact"):
-        ps.spectrum("direct(path(3), cycle(4))", "laplacian")
+        ps.spectrum("direct(path(3), star(3))", "laplacian")
 
 
 @pytest.mark.parametrize(
@@ -144,6 +144,24 @@ def test_direct_product_normalized_and_transition_exact_for_irregular(kind):
     want = eigenvalues(_kind_matrix(a, kind)) if kind == "normalized" else np.linalg.eigvals(
         _kind_matrix(a, kind))
     got = expand(ps.spectrum("direct(path(3), star(3))", kind).atoms)
+    assert multiset_distance(got, want) < 1e-9
+
+
+@pytest.mark.parametrize("expr,g,h,ca,cb", [
+    ("direct(path(3), cycle(4))", "p3", "c4", 0.0, 1.0),
+    ("strong(star(3), cycle(5))", "s3", "c5", 1.0, 1.0),
+    ("mix(1, 0.5, path(4), cycle(4))", "p4", "c4", 1.0, 0.5),
+    ("direct(cycle(5), star(2))", "c5", "s2", 0.0, 1.0),
+])
+@pytest.mark.parametrize("kind", ["laplacian", "signless"])
+def test_one_irregular_factor_laplacian_blocks(expr, g, h, ca, cb, kind):
+    # source: numpy eigvalsh on D -+ A of the explicit Kronecker product; the engine uses one
+    # n x n block per eigenvalue of the regular factor instead
+    lib = {"p3": _path(3), "p4": _path(4), "s3": _star(3), "s2": _star(2), "c4": _cycle(4),
+           "c5": _cycle(5)}
+    a = kron_product(lib[g], lib[h], ca, cb)  # operands in the expression's order
+    want = eigenvalues(_kind_matrix(a, kind))
+    got = expand(ps.spectrum(expr, kind).atoms)
     assert multiset_distance(got, want) < 1e-9
 
 
