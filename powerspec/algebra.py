@@ -191,11 +191,29 @@ class Engine:
         rule = MATRIX_RULES[kind](node.comb)
         if rule is not None:
             return self._combine(rule, [(self.spectrum(c, kind), k) for c, k in node.operands])
-        deg = self.degrees(node)
-        if len(deg) != 1 and kind in ("laplacian", "signless"):
+        if not self.is_regular(node) and kind in ("laplacian", "signless"):
             blocks = self._one_irregular(node, kind)
             if blocks is not None:
                 return blocks
+        shift, factor = self._regular_form(node, kind)
+        return self.spectrum(node, "adjacency").affine(shift, factor)
+
+    def linear_form(self, node: Product, kind: str):
+        """(combination, operand kind, (shift, factor)) with M = shift + factor * (rule spectrum).
+
+        The kind's eigenvalues of ``node`` are the ``combination`` of its operands'
+        ``operand kind`` eigenvalues, mapped by the affine post-transform.  Raises
+        NotExactError when no such form exists (a kind exact only for regular
+        products, on an irregular one) -- even where the engine could still
+        enumerate the spectrum block by block.
+        """
+        rule = MATRIX_RULES[kind](node.comb)
+        if rule is not None:
+            return rule, kind, (0.0, 1.0)
+        return node.comb, "adjacency", self._regular_form(node, kind)
+
+    def _regular_form(self, node: Product, kind: str) -> tuple[float, float]:
+        deg = self.degrees(node)
         if len(deg) != 1:
             lo, hi = _real_range(deg)
             raise NotExactError(
@@ -207,8 +225,7 @@ class Engine:
         d = deg.value(0)
         if kind in ("normalized", "transition") and d == 0:
             raise InputError(f"the {kind} matrix needs non-zero degrees; {node.label()} has degree 0")
-        shift, factor = REGULAR_FORM[kind](d)
-        return self.spectrum(node, "adjacency").affine(shift, factor)
+        return REGULAR_FORM[kind](d)
 
     def _one_irregular(self, node: Product, kind: str) -> Spectrum | None:
         """D -+ A of G o H with G one irregular factor and H regular of degree e, or None.
@@ -308,9 +325,9 @@ class Engine:
         use = kind if rule is not None else "adjacency"
         comb = rule if rule is not None else node.comb
         # Work in log2 so that astronomically large powers cost nothing.
+        rs = [self.bound(child, use) for child, _ in node.operands]
         total = 0.0
-        for child, k in node.operands:
-            r = self.bound(child, use)
+        for (child, k), r in zip(node.operands, rs, strict=True):
             child_bits = k * count_log2(child.order)
             if comb.mode is None:
                 total += min(k * math.log2(max(r, 1)), child_bits)
@@ -323,8 +340,7 @@ class Engine:
         if total > 62:
             return BOUND_CAP  # far beyond any limit; the exact value is not needed
         exact = 1
-        for child, k in node.operands:
-            r = self.bound(child, use)
+        for (child, k), r in zip(node.operands, rs, strict=True):
             rb = r**k if comb.mode is None else composition_count(k, r)
             small = k * count_log2(child.order) <= 64
             exact *= min(rb, child.order**k) if small else rb

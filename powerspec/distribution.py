@@ -58,7 +58,7 @@ from .laws import (
 )
 from .measures import RTOL, Spectrum
 from .powers import outer, power
-from .products import CARTESIAN, MATRIX_KINDS, MATRIX_RULES, REGULAR_FORM
+from .products import CARTESIAN, MATRIX_KINDS, MATRIX_RULES
 
 METHODS = ("auto", "exact", "bracket", "law")
 DEFAULT_TOL = 1e-3
@@ -112,14 +112,7 @@ def _flatten(eng: Engine, node: Node, kind: str):
     if isinstance(node, Leaf):
         # a single factor: one copy under the additive rule (its spectrum is exact anyway)
         return CARTESIAN, [(eng.spectrum(node, kind), 1)], 0.0, 1.0
-    rule = MATRIX_RULES[kind](node.comb)
-    if rule is not None:
-        comb, use, post = rule, kind, (0.0, 1.0)
-    else:
-        deg = eng.degrees(node)
-        if len(deg) != 1:
-            eng.spectrum(node, kind)  # raises NotExactError with the reason
-        comb, use, post = node.comb, "adjacency", REGULAR_FORM[kind](deg.value(0))
+    comb, use, post = eng.linear_form(node, kind)
     if comb.mode is None:
         return None
     parts = []  # operand spectra mapped to s-space

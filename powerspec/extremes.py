@@ -31,10 +31,10 @@ import math
 import numpy as np
 
 from .algebra import Engine, Leaf, Node
-from .errors import SizeLimitError
+from .errors import NotExactError, SizeLimitError
 from .measures import RTOL, Spectrum, concat, mult_array
-from .powers import power
-from .products import MATRIX_RULES, REGULAR_FORM, Combination
+from .powers import outer, power
+from .products import Combination
 
 MAX_MULT_BITS = 1 << 23
 """Largest multiplicity (in bits, about 2.5 million digits) computed exactly."""
@@ -60,7 +60,12 @@ def extremes(engine: Engine, node: Node, kind: str, m: int, bottom: bool = False
     if engine.fits(node, kind):
         sp = engine.spectrum(node, kind)
         return select(sp, m, bottom), "exact enumeration of the full spectrum"
-    flat = _flatten(engine, node, kind)
+    try:
+        flat = _flatten(engine, node, kind)
+    except NotExactError:
+        # No combination rule (e.g. the Laplacian of a product with one irregular factor):
+        # the engine may still enumerate the spectrum, and refuses with the reason if not.
+        return select(engine.spectrum(node, kind), m, bottom), "exact enumeration of the full spectrum"
     if flat is None:
         try:
             sp = engine.spectrum(node, kind)
@@ -126,15 +131,7 @@ def _flatten(engine: Engine, node: Node, kind: str):
     """(combination, [(child spectrum, copies)], (post shift, post factor)) or None."""
     if isinstance(node, Leaf):
         return None
-    rule = MATRIX_RULES[kind](node.comb)
-    if rule is not None:
-        comb, use, post = rule, kind, (0.0, 1.0)
-    else:
-        deg = engine.degrees(node)
-        if len(deg) != 1:
-            engine.spectrum(node, kind)  # raises the NotExactError with its reason
-        d = deg.value(0)
-        comb, use, post = node.comb, "adjacency", REGULAR_FORM[kind](d)
+    comb, use, post = engine.linear_form(node, kind)
     if comb.mode is None:
         return None
     parts = [(engine.spectrum(child, use), k) for child, k in node.operands]
@@ -350,8 +347,6 @@ def _state_spectrum_mul(state, cls, parts, offsets, level) -> Spectrum:
 
 
 def _outer_mul(a: Spectrum, b: Spectrum) -> Spectrum:
-    from .powers import outer
-
     return outer(a, b, "mul", 4 * MAX_STATES)
 
 

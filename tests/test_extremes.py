@@ -145,3 +145,16 @@ def test_best_first_equals_full_spectrum(a, b, kind, ka, kb, m, bottom):
     assert np.max(np.abs(np.sort(inside) - np.sort(vals))) < 1e-7 * scale
     distinct = len(ps.spectrum(node).atoms)
     assert len(got) == min(m, distinct)  # real spectra: exactly m (or all) distinct values
+
+
+def test_one_irregular_factor_laplacian_beyond_the_limit():
+    # The Laplacian of direct(path(3), H) with H regular has no combination rule; with a limit
+    # below the product's bound, top must still agree with the full exact spectrum (or refuse),
+    # never apply the regular-graph transform with a wrong degree.
+    # source: the full spectrum (block construction, checked against numpy in test_engine)
+    e = "direct(path(3), cart(cycle(5)^20))"
+    full = ps.spectrum(e, "laplacian").atoms
+    got = ps.top(e, 2, "laplacian", limit=300).atoms.atoms()
+    assert got == select(full, 2, False).atoms()
+    with pytest.raises(ps.NotExactError):
+        ps.top(e, 2, "laplacian", limit=30)

@@ -56,3 +56,14 @@ def test_moment_fallback_bounds_hold(expr, fa, fb, ca, cb, kind):
 def test_fallback_not_used_for_adjacency_or_explicit_exact():
     with pytest.raises(ps.NotExactError):
         ps.cdf("direct(path(3), star(4))", 1.0, "laplacian", method="exact")
+
+
+def test_one_irregular_factor_distribution_tiers_hold():
+    # Past the exact tier (small limit), the bracket/law tiers have no rule for this
+    # Laplacian; the answer must still contain the exact one (moment bounds).
+    # source: the exact tier with the default limit (block construction, checked against numpy)
+    e = "direct(path(3), cart(cycle(5)^3))"
+    for x in (3.0, 7.5, 11.0):
+        exact = ps.cdf(e, x, "laplacian")
+        bounded = ps.cdf(e, x, "laplacian", limit=20)
+        assert bounded.lower - 1e-12 <= exact.lower <= exact.upper <= bounded.upper + 1e-12
