@@ -34,12 +34,15 @@ All probabilities here are plain floats; bounds are widened by
 from __future__ import annotations
 
 import math
+from abc import ABC, abstractmethod
 from collections.abc import Sequence
 from fractions import Fraction
 
 import mpmath
 import numpy as np
 from scipy import optimize, special, stats
+
+from .errors import InputError
 
 BERRY_ESSEEN_IID = 0.4748
 """Berry--Esseen constant for i.i.d. summands (I. Shevtsova 2011, arXiv:1111.6554)."""
@@ -76,20 +79,20 @@ def npdf(z):
     return np.exp(-0.5 * np.square(z)) / math.sqrt(2 * math.pi)
 
 
-class Law:
+class Law(ABC):
     """Base class: derive sf, ppf, interval, mean, var from cdf, pdf and cumulants."""
 
+    @abstractmethod
     def cdf(self, x):
         """P(X <= x)."""
-        raise NotImplementedError
 
+    @abstractmethod
     def pdf(self, x):
         """Density at x (of the continuous part)."""
-        raise NotImplementedError
 
+    @abstractmethod
     def cumulants(self) -> tuple[float, ...]:
         """(kappa1, kappa2, ...) -- at least the mean and the variance."""
-        raise NotImplementedError
 
     def sf(self, x):
         """P(X > x) = 1 - cdf(x)."""
@@ -577,7 +580,7 @@ class ProductLaw(Law):
         return self.evaluate(1 if x > 0 else -1, math.log(abs(x)), strict)[0]
 
     def pdf(self, x):
-        raise NotImplementedError("the product law has a point mass at zero; use cdf")
+        raise InputError("the product law has a point mass at zero and no density; use cdf")
 
     def cumulants(self):
         """Mean and variance of S under the log-normal approximation (mpmath numbers)."""
