@@ -20,7 +20,7 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))  # run from a checkout
 
 import powerspec as ps  # noqa: E402
-from powerspec.distribution import _Query, cdf  # noqa: E402
+from powerspec.queries.distribution import _Query, cdf  # noqa: E402
 
 FACTORS = ["complete(2)", "cycle(5)", "motif()"]
 POWERS = [3, 10, 100, 1000, 10**6]

@@ -21,7 +21,7 @@ import scipy.sparse as sp
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 import powerspec as ps  # noqa: E402
-from powerspec.algebra import Engine  # noqa: E402
+from powerspec.algebra.engine import Engine  # noqa: E402
 
 
 def best_of(fn, repeat=3):

@@ -19,9 +19,9 @@ import scipy.sparse.linalg as sla
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from powerspec.counts import log2 as count_log2
-from powerspec.expressions import parse
-from powerspec.invariants import invariants
+from powerspec.algebra.grammar import parse
+from powerspec.numbers.counts import log2 as count_log2
+from powerspec.queries.invariants import invariants
 
 CASES = [
     ("cart(cycle(10)^6)", (1, 0), True),

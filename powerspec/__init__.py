@@ -15,9 +15,10 @@ answers queries as :class:`~powerspec.answers.Answer` objects; the
 
 __version__ = "0.1.0"
 
-from .algebra import Engine, Leaf, Product  # noqa: E402
-from .answers import Answer  # noqa: E402
-from .errors import (  # noqa: E402
+from powerspec.algebra.engine import Engine, Leaf, Product  # noqa: E402
+from powerspec.algebra.grammar import parse  # noqa: E402
+from powerspec.answers.answer import Answer  # noqa: E402
+from powerspec.errors import (  # noqa: E402
     ExpressionError,
     FactorFileError,
     InputError,
@@ -26,8 +27,7 @@ from .errors import (  # noqa: E402
     SizeLimitError,
     SymbolicError,
 )
-from .expressions import parse  # noqa: E402
-from .factors import (  # noqa: E402
+from powerspec.factors.core import (  # noqa: E402
     Factor,
     complete,
     complete_bipartite,
@@ -41,8 +41,8 @@ from .factors import (  # noqa: E402
     scale,
     star,
 )
-from .measures import Spectrum  # noqa: E402
-from .planner import cdf, count, quantile, spectrum, top  # noqa: E402
+from powerspec.queries.planner import cdf, count, quantile, spectrum, top  # noqa: E402
+from powerspec.spectra.measures import Spectrum  # noqa: E402
 
 __all__ = [
     "Answer", "Engine", "ExpressionError", "Factor", "FactorFileError", "InputError", "Leaf",

@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 
 import powerspec as ps
-from powerspec.bracket import AddBracket, MulBracket, choose_spacing
 from powerspec.errors import SizeLimitError
+from powerspec.tiers.bracket import AddBracket, MulBracket, choose_spacing
 
 
 @pytest.mark.parametrize("k", [1, 7, 300, 2000])

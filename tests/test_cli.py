@@ -9,7 +9,7 @@ import sys
 
 import pytest
 
-from powerspec.cli import main
+from powerspec.interfaces.cli import main
 
 
 def run(argv, capsys):

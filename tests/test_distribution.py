@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 
 import powerspec as ps
-from powerspec.distribution import _Query, cdf, count, quantile
+from powerspec.queries.distribution import _Query, cdf, count, quantile
 from tests.reference import fold
 
 

@@ -10,8 +10,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import powerspec as ps
-from powerspec.algebra import Engine, Leaf, Product
-from powerspec.products import CARTESIAN, DIRECT, STRONG, Combination
+from powerspec.algebra.engine import Engine, Leaf, Product
+from powerspec.algebra.kinds import CARTESIAN, DIRECT, STRONG, Combination
 from tests.reference import (
     definition_product,
     eigenvalues,

@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 import powerspec as ps
-from powerspec.expressions import parse
+from powerspec.algebra.grammar import parse
 
 
 @pytest.mark.parametrize("text", [

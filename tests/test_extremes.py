@@ -11,7 +11,7 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 import powerspec as ps
-from powerspec.extremes import select
+from powerspec.algebra.extremes import select
 from tests.reference import eigenvalues, expand, fold
 
 
@@ -132,7 +132,7 @@ def test_best_first_equals_full_spectrum(a, b, kind, ka, kb, m, bottom):
     assume(a.shape[0] ** ka * b.shape[0] ** kb <= 700)  # keep the explicit build small
     ca, cb = {"cart": (1.0, 0.0), "direct": (0.0, 1.0), "strong": (1.0, 1.0)}[kind]
     fa, fb = ps.from_matrix(a, name="A"), ps.from_matrix(b, name="B")
-    node = ps.Product(ps.products.PRODUCT_KINDS[kind], ((ps.Leaf(fa), ka), (ps.Leaf(fb), kb)))
+    node = ps.Product(ps.algebra.kinds.PRODUCT_KINDS[kind], ((ps.Leaf(fa), ka), (ps.Leaf(fb), kb)))
     explicit = fold([a] * ka + [b] * kb, ca, cb)
     want = np.sort(eigenvalues(explicit).real)
     got = ps.top(node, m, bottom=bottom, limit=1).atoms

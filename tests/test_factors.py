@@ -18,7 +18,7 @@ from scipy.optimize import linear_sum_assignment
 from scipy.sparse.csgraph import connected_components
 
 from powerspec.errors import FactorFileError, InputError
-from powerspec.factors import (
+from powerspec.factors.core import (
     MATRIX_KINDS,
     Factor,
     complete,

@@ -10,8 +10,8 @@ import pytest
 import scipy.sparse as sp
 import scipy.sparse.linalg as sla
 
-from powerspec.expressions import parse
-from powerspec.invariants import invariants
+from powerspec.algebra.grammar import parse
+from powerspec.queries.invariants import invariants
 from tests.reference import fold
 
 

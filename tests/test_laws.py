@@ -10,8 +10,8 @@ import pytest
 from scipy import stats
 
 import powerspec as ps
-from powerspec.distribution import _Query
-from powerspec.laws import (
+from powerspec.queries.distribution import _Query
+from powerspec.tiers.laws import (
     BERRY_ESSEEN_IID,
     BERRY_ESSEEN_NONIID,
     Affine,
@@ -142,5 +142,5 @@ def test_strong_power_is_shifted_law():
 
 
 def ps_cdf(expr, x):
-    from powerspec.distribution import cdf
+    from powerspec.queries.distribution import cdf
     return cdf(expr, x, method="law")

@@ -8,12 +8,12 @@ import mpmath
 import numpy as np
 import pytest
 
-from powerspec.algebra import Leaf, Product
+from powerspec.algebra.engine import Leaf, Product
+from powerspec.algebra.grammar import parse
+from powerspec.algebra.kinds import Combination
 from powerspec.errors import InputError
-from powerspec.expressions import parse
-from powerspec.factors import from_matrix
-from powerspec.momentbounds import cdf_bounds, cdf_bounds_from_moments, recurrence
-from powerspec.products import Combination
+from powerspec.factors.core import from_matrix
+from powerspec.tiers.momentbounds import cdf_bounds, cdf_bounds_from_moments, recurrence
 from tests.reference import fold
 
 RNG = np.random.default_rng(7)

@@ -8,12 +8,13 @@ from fractions import Fraction
 import numpy as np
 import pytest
 
-from powerspec.algebra import Leaf, Product
+from powerspec.algebra.engine import Leaf, Product
+from powerspec.algebra.grammar import parse
+from powerspec.algebra.kinds import Combination
+from powerspec.algebra.moments import trace_moments
 from powerspec.errors import InputError, NotExactError, SizeLimitError
-from powerspec.expressions import parse
-from powerspec.factors import from_matrix
-from powerspec.moments import moment_answer, trace_moments
-from powerspec.products import Combination
+from powerspec.factors.core import from_matrix
+from powerspec.queries.moments import moment_answer
 from tests.reference import fold
 
 RNG = np.random.default_rng(20240611)

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from powerspec.cli import main
+from powerspec.interfaces.cli import main
 
 pytest.importorskip("matplotlib")
 

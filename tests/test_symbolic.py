@@ -9,8 +9,8 @@ import numpy as np
 import pytest
 import sympy
 
-import powerspec.planner as planner
-from powerspec import symbolic as S
+import powerspec.queries.planner as planner
+from powerspec.algebra import symbolic as S
 from powerspec.errors import ExpressionError, InputError, NotExactError, SymbolicError
 from tests.reference import fold
 

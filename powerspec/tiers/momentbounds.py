@@ -36,7 +36,8 @@ from fractions import Fraction
 
 import mpmath
 
-from .errors import InputError
+from powerspec.algebra.moments import MomentEngine
+from powerspec.errors import InputError
 
 SLACK = 1e-30
 """Absolute widening of the numerically summed weights (far above the mpmath error)."""
@@ -272,13 +273,11 @@ def cdf_bounds_from_moments(node, kind: str, x, *, order: int = DEFAULT_ORDER,
     strong products whose spectrum does not factor.  ``order`` is the largest
     moment used (an even number 2n gives an (n+1)-node quadrature).
 
-    >>> from powerspec.expressions import parse
+    >>> from powerspec.algebra.grammar import parse
     >>> lo, hi, how = cdf_bounds_from_moments(parse("cart(complete(2)^3)"), "adjacency", 0.0)
     >>> lo, hi                                    # Q_3: eigenvalues -3, -1^3, 1^3, 3
     (0.5, 0.5)
     """
-    from .moments import MomentEngine
-
     if node.directed:
         raise InputError(
             f"CDF bounds from moments need a real spectrum, and {node.label()} is directed; "

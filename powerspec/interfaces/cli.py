@@ -11,10 +11,11 @@ import argparse
 import sys
 from collections.abc import Sequence
 
-from . import __version__, planner
-from .answers import write_atomic
-from .errors import PowerspecError
-from .products import MATRIX_KINDS
+from powerspec import __version__
+from powerspec.algebra.kinds import MATRIX_KINDS
+from powerspec.answers.answer import write_atomic
+from powerspec.errors import PowerspecError
+from powerspec.queries import planner
 
 EXIT_USER_ERROR = 2
 
@@ -132,8 +133,8 @@ def _run(args: argparse.Namespace) -> str:
     if getattr(args, "latex", False) and not args.symbolic:
         raise _UsageError("--latex goes with --symbolic")
     if getattr(args, "symbolic", False):
-        from .answers import dump_json
-        from .symbolic import symbolic_report, symbolic_text
+        from powerspec.algebra.symbolic import symbolic_report, symbolic_text
+        from powerspec.answers.answer import dump_json
 
         extra = {"max_power": args.order} if args.command == "moments" else {}
         rep = symbolic_report(args.command, args.expression,
@@ -146,12 +147,12 @@ def _run(args: argparse.Namespace) -> str:
         ans = fn(args.expression, *point, args.matrix, method=args.method, tol=args.tol,
                  limit=args.limit, degrees=args.degrees)
     elif args.command == "moments":
-        from .moments import moment_answer
+        from powerspec.queries.moments import moment_answer
 
         ans = moment_answer(args.expression, order=args.order, matrix=args.matrix,
                             degrees=args.degrees, per_vertex=args.per_vertex)
     elif args.command == "invariants":
-        from .invariants import invariants
+        from powerspec.queries.invariants import invariants
 
         ans = invariants(args.expression, limit=args.limit, degrees=args.degrees, t=args.time)
     elif args.command == "spectrum":
@@ -161,12 +162,12 @@ def _run(args: argparse.Namespace) -> str:
         ans = planner.top(args.expression, args.m, args.matrix, bottom=args.bottom,
                           limit=args.limit, degrees=args.degrees)
     elif args.command == "plot":
-        from .plots import plot
+        from powerspec.interfaces.plots import plot
 
         return plot(args.expression, args.output, args.matrix, bins=args.bins, limit=args.limit,
                     degrees=args.degrees) + "\n"
     elif args.command == "demo":
-        from .demo import run_demo
+        from powerspec.interfaces.demo import run_demo
 
         return run_demo()
     else:  # pragma: no cover - argparse restricts the choices

@@ -35,13 +35,14 @@ import mpmath
 import numpy as np
 import scipy.sparse.csgraph as csgraph
 
-from .algebra import DEFAULT_LIMIT, Engine, Leaf, Node
-from .answers import Answer
-from .counts import BigCount
-from .errors import InputError, NotExactError, PowerspecError, SizeLimitError
-from .extremes import extremes
-from .moments import MomentEngine, exact_degrees
-from .products import MATRIX_RULES
+from powerspec.algebra.engine import DEFAULT_LIMIT, Engine, Leaf, Node
+from powerspec.algebra.extremes import extremes
+from powerspec.algebra.kinds import MATRIX_RULES
+from powerspec.algebra.moments import MomentEngine, exact_degrees
+from powerspec.answers.answer import Answer
+from powerspec.errors import InputError, NotExactError, PowerspecError, SizeLimitError
+from powerspec.numbers.counts import BigCount
+from powerspec.queries.common import resolve
 
 EXACT_LIMIT = 200_000
 """Distinct eigenvalues the invariants query enumerates by default (keeps queries fast)."""
@@ -569,8 +570,6 @@ def invariants(expr, *, limit: int | None = None, degrees: str = "out", t: float
     >>> inv["algebraic_connectivity"]["value"], inv["components"]["value"]
     (2.0, 1)
     """
-    from .planner import resolve
-
     if degrees not in ("out", "in"):
         raise InputError(f"degree direction must be 'out' or 'in', got {degrees!r}")
     try:

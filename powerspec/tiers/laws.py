@@ -42,7 +42,7 @@ import mpmath
 import numpy as np
 from scipy import optimize, special, stats
 
-from .errors import InputError
+from powerspec.errors import InputError
 
 BERRY_ESSEEN_IID = 0.4748
 """Berry--Esseen constant for i.i.d. summands (I. Shevtsova 2011, arXiv:1111.6554)."""

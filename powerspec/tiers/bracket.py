@@ -47,8 +47,8 @@ from fractions import Fraction
 import numpy as np
 from scipy import fft as sfft
 
-from .errors import SizeLimitError
-from .laws import lattice_span
+from powerspec.errors import SizeLimitError
+from powerspec.tiers.laws import lattice_span
 
 GRID_LIMIT = 1 << 23
 """Default largest grid (points) of one bracket; about 1 GiB of FFT work space at most."""

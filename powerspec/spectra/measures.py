@@ -37,7 +37,7 @@ from typing import Any
 import mpmath
 import numpy as np
 
-from .errors import InputError
+from powerspec.errors import InputError
 
 RTOL = 1e-10
 """Relative merging tolerance (see module docstring)."""

@@ -18,8 +18,8 @@ questions that are answered with rigorous bounds.
 
 from __future__ import annotations
 
-from . import planner
-from .answers import _text_int, _text_value
+from powerspec.answers.answer import _text_int, _text_value
+from powerspec.queries import planner
 
 CANDIDATES = (
     ("4-D torus", "cart(cycle(45)^4)"),

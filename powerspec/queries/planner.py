@@ -9,30 +9,16 @@ builds an n^k matrix.
 from __future__ import annotations
 
 import math
-from pathlib import Path
 
-from .algebra import BOUND_CAP, DEFAULT_LIMIT, Engine, Leaf, Node
-from .answers import Answer, _text_int
-from .errors import InputError, NotExactError, SizeLimitError
-from .expressions import parse
-from .extremes import extremes
-from .factors import Factor, from_matrix
-from .products import MATRIX_KINDS
-
-
-def resolve(expr, base_dir: str | Path | None = None) -> Node:
-    """An expression node from text, a node, a Factor or any matrix-like object.
-
-    >>> resolve("cart(cycle(4)^2)").order
-    16
-    """
-    if isinstance(expr, str):
-        return parse(expr, base_dir)
-    if isinstance(expr, Node.__args__):
-        return expr
-    if isinstance(expr, Factor):
-        return Leaf(expr)
-    return Leaf(from_matrix(expr))
+from powerspec.algebra.engine import BOUND_CAP, DEFAULT_LIMIT, Engine, Node
+from powerspec.algebra.extremes import extremes
+from powerspec.algebra.kinds import MATRIX_KINDS
+from powerspec.algebra.moments import MomentEngine
+from powerspec.answers.answer import Answer, _text_int
+from powerspec.errors import InputError, NotExactError, SizeLimitError
+from powerspec.queries import distribution
+from powerspec.queries.common import matrix_label, resolve
+from powerspec.tiers.momentbounds import DEFAULT_ORDER, cdf_bounds, cdf_bounds_from_moments
 
 
 def _bound_text(bound: int) -> str:
@@ -43,12 +29,6 @@ def _engine(matrix: str, limit: int | None, degrees: str) -> Engine:
     if matrix not in MATRIX_KINDS:
         raise InputError(f"unknown matrix kind {matrix!r}; choose one of {', '.join(MATRIX_KINDS)}")
     return Engine(DEFAULT_LIMIT if limit is None else limit, direction=degrees)
-
-
-def _matrix_label(matrix: str, node: Node, degrees: str) -> str:
-    if matrix in ("laplacian", "signless", "transition") and node.directed:
-        return f"{matrix} ({degrees}-degree)"
-    return matrix
 
 
 def spectrum(expr, matrix: str = "adjacency", *, limit: int | None = None,
@@ -79,7 +59,7 @@ def spectrum(expr, matrix: str = "adjacency", *, limit: int | None = None,
     method = "exact: eigenvalues combined from the factors' spectra"
     if len(sp) < bound:
         method += f" (merged {bound} candidate values to {len(sp)})" if bound < 10**12 else ""
-    return Answer("spectrum", node.label(), _matrix_label(matrix, node, degrees), node.order,
+    return Answer("spectrum", node.label(), matrix_label(matrix, node, degrees), node.order,
                   method, atoms=sp, inputs={"limit": eng.limit, "degrees": degrees})
 
 
@@ -95,7 +75,7 @@ def top(expr, m: int = 5, matrix: str = "adjacency", *, bottom: bool = False,
     node = resolve(expr)
     eng = _engine(matrix, limit, degrees)
     sp, how = extremes(eng, node, matrix, m, bottom)
-    return Answer("top", node.label(), _matrix_label(matrix, node, degrees), node.order,
+    return Answer("top", node.label(), matrix_label(matrix, node, degrees), node.order,
                   "exact: " + how, atoms=sp,
                   inputs={"m": m, "bottom": bottom, "limit": eng.limit, "degrees": degrees})
 
@@ -109,9 +89,6 @@ def _moment_fallback(node: Node, matrix: str, exc: NotExactError) -> bool:
 
 def _moment_cdf(node: Node, matrix: str, degrees: str):
     """(x -> (lower, upper) bounds on F(x), method text) from exact moments, computed once."""
-    from .momentbounds import DEFAULT_ORDER, cdf_bounds, cdf_bounds_from_moments
-    from .moments import MomentEngine
-
     if node.directed:
         cdf_bounds_from_moments(node, matrix, 0.0, direction=degrees)  # raises the clear error
     tau = MomentEngine(DEFAULT_ORDER, degrees).normalised(node, matrix)
@@ -123,7 +100,7 @@ def _moment_cdf(node: Node, matrix: str, degrees: str):
 
 def _moment_answer(query: str, node: Node, matrix: str, degrees: str, est, lo, hi, how: str,
                    inputs: dict) -> Answer:
-    return Answer(query, node.label(), _matrix_label(matrix, node, degrees), node.order,
+    return Answer(query, node.label(), matrix_label(matrix, node, degrees), node.order,
                   "moments: " + how + "; estimate: midpoint of the bounds", estimate=est,
                   lower=lo, upper=hi, inputs={**inputs, "degrees": degrees, "tier": "moments"})
 
@@ -139,8 +116,6 @@ def cdf(expr, x: float, matrix: str = "adjacency", *, method: str = "auto", tol:
     >>> (a.lower, a.upper)
     (0.5, 0.5)
     """
-    from . import distribution
-
     node = resolve(expr)
     try:
         return distribution.cdf(node, x, matrix, method=method, tol=tol, limit=limit, degrees=degrees)
@@ -160,8 +135,6 @@ def count(expr, a: float, b: float, matrix: str = "adjacency", *, method: str = 
     >>> count("cart(complete(2)^4)", -0.5, 0.5).estimate    # C(4, 2) = 6 eigenvalues at 0
     6
     """
-    from . import distribution
-
     node = resolve(expr)
     try:
         return distribution.count(node, a, b, matrix, method=method, tol=tol, limit=limit,
@@ -194,8 +167,6 @@ def quantile(expr, q: float, matrix: str = "adjacency", *, method: str = "auto",
     >>> quantile("cart(complete(2)^4)", 0.5).estimate
     0.0
     """
-    from . import distribution
-
     node = resolve(expr)
     try:
         return distribution.quantile(node, q, matrix, method=method, tol=tol, limit=limit,

@@ -30,11 +30,11 @@ import math
 
 import numpy as np
 
-from .algebra import Engine, Leaf, Node
-from .errors import NotExactError, SizeLimitError
-from .measures import RTOL, Spectrum, concat, mult_array
-from .powers import outer, power
-from .products import Combination
+from powerspec.algebra.engine import Engine, Leaf, Node
+from powerspec.algebra.kinds import Combination
+from powerspec.algebra.powers import outer, power
+from powerspec.errors import NotExactError, SizeLimitError
+from powerspec.spectra.measures import RTOL, Spectrum, concat, mult_array
 
 MAX_MULT_BITS = 1 << 23
 """Largest multiplicity (in bits, about 2.5 million digits) computed exactly."""
@@ -50,7 +50,7 @@ def extremes(engine: Engine, node: Node, kind: str, m: int, bottom: bool = False
     atoms (its ``order`` is the sum of their multiplicities) and a one-line
     description of how they were obtained.
 
-    >>> from powerspec.expressions import parse
+    >>> from powerspec.algebra.grammar import parse
     >>> sp, how = extremes(Engine(), parse("cart(complete(2)^1000000000)"), "adjacency", 2)
     >>> sp.atoms()
     [(999999998.0, 1000000000), (1000000000.0, 1)]

@@ -27,8 +27,8 @@ import math
 
 import numpy as np
 
-from .errors import SizeLimitError
-from .measures import LINEAR_MAX, Spectrum, mult_array, outer_mult, polar_add, polar_mul
+from powerspec.errors import SizeLimitError
+from powerspec.spectra.measures import LINEAR_MAX, Spectrum, mult_array, outer_mult, polar_add, polar_mul
 
 _LOG_LINEAR_MAX = math.log(LINEAR_MAX)
 

@@ -22,10 +22,10 @@ import re
 from dataclasses import dataclass
 from pathlib import Path
 
-from . import factors
-from .algebra import Leaf, Node, Product
-from .errors import ExpressionError, PowerspecError
-from .products import PRODUCT_KINDS, Combination
+from powerspec.algebra.engine import Leaf, Node, Product
+from powerspec.algebra.kinds import PRODUCT_KINDS, Combination
+from powerspec.errors import ExpressionError, PowerspecError
+from powerspec.factors import core as factors
 
 # ---------------------------------------------------------------- syntax
 

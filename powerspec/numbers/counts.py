@@ -13,7 +13,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable
 
-from .errors import SizeLimitError
+from powerspec.errors import SizeLimitError
 
 EXPAND_BITS = 1 << 20
 """Counts with at most this many bits (about 315,000 digits) are expanded to ints."""

@@ -14,9 +14,9 @@ from pathlib import Path
 
 import numpy as np
 
-from . import planner
-from .answers import write_atomic
-from .errors import InputError, PowerspecError
+from powerspec.answers.answer import write_atomic
+from powerspec.errors import InputError, PowerspecError
+from powerspec.queries import planner
 
 FORMATS = ("png", "pdf", "svg")
 
@@ -69,7 +69,7 @@ def plot(expr, output: str | Path, matrix: str = "adjacency", *, bins: int = 60,
                 scale = 1.0
             summary = f"exact spectrum, {len(sp)} distinct eigenvalues"
         else:
-            from .moments import trace_moments
+            from powerspec.algebra.moments import trace_moments
 
             # Per-vertex moments tr(M^p)/order are exact rationals of moderate size at any k.
             mom = dict(trace_moments(node, matrix, 2, direction=degrees, per_vertex=True))

@@ -33,7 +33,7 @@ multiplicative over Kronecker products, which keeps numbers small):
 * The normalized Laplacian I - D^-1/2 A D^-1/2 is similar to I - D^-1 A, so
   its traces are rational too.
 
->>> from powerspec.expressions import parse
+>>> from powerspec.algebra.grammar import parse
 >>> trace_moments(parse("cart(complete(2)^3)"), order=4)
 [(1, 0), (2, 24), (3, 0), (4, 168)]
 """
@@ -47,12 +47,12 @@ from functools import reduce
 import mpmath
 import numpy as np
 
-from .algebra import Leaf, Node, Product
-from .counts import BigCount
-from .counts import log2 as count_log2
-from .errors import InputError, NotExactError, SizeLimitError
-from .factors import Factor
-from .products import MATRIX_KINDS, MATRIX_RULES, Combination
+from powerspec.algebra.engine import Leaf, Node, Product
+from powerspec.algebra.kinds import MATRIX_KINDS, MATRIX_RULES, Combination
+from powerspec.errors import InputError, NotExactError, SizeLimitError
+from powerspec.factors.core import Factor
+from powerspec.numbers.counts import BigCount
+from powerspec.numbers.counts import log2 as count_log2
 
 MAX_DIGITS = 1_000_000
 """Largest number of decimal digits of any exact result or intermediate."""
@@ -148,7 +148,7 @@ def exact_adjacency(factor: Factor) -> list[list[Fraction]]:
 def exact_degrees(factor: Factor, direction: str = "out") -> list[Fraction]:
     """Exact weighted degrees: row sums ('out') or column sums ('in') of the exact entries.
 
-    >>> from powerspec.factors import star
+    >>> from powerspec.factors.core import star
     >>> [int(d) for d in exact_degrees(star(2))]
     [2, 1, 1]
     """
@@ -649,7 +649,7 @@ def trace_moments(node: Node, kind: str = "adjacency", order: int = 8, *, direct
     value would exceed :data:`MAX_DIGITS` digits, NotExactError for the
     normalized/transition kinds of non-regular non-direct products.
 
-    >>> from powerspec.expressions import parse
+    >>> from powerspec.algebra.grammar import parse
     >>> trace_moments(parse("direct(star(2), path(2))"), "laplacian", order=2)
     [(1, 8), (2, 20)]
     >>> trace_moments(parse("cart(complete(2)^1000000000)"), order=2, per_vertex=True)
@@ -683,32 +683,5 @@ def _answer_value(v: Exact):
     return mpmath.mpf(v.numerator) / v.denominator
 
 
-def moment_answer(expr, order: int = 8, matrix: str = "adjacency", *, degrees: str = "out",
-                  per_vertex: bool = False):
-    """The ``moments`` query: an Answer with ``moments=[(p, tr(M^p)), ...]``, exact.
-
-    Integral values stay Python ints; non-integral ones are Fractions (written
-    as numbers in JSON).
-
-    >>> moment_answer("cart(cycle(4)^2)", order=2).moments
-    [(1, 0), (2, 64)]
-    """
-    from .answers import Answer
-    from .planner import resolve
-
-    node = resolve(expr)
-    _check_order(order)
-    eng = MomentEngine(order, degrees)
-    vals = _finish(node, eng.normalised(node, matrix), per_vertex)
-    what = "tr(M^p)/order (moments of the eigenvalue distribution)" if per_vertex else "tr(M^p)"
-    method = f"{moments_method(eng)}; values are {what}"
-    label = matrix
-    if matrix in ("laplacian", "signless", "transition") and node.directed:
-        label = f"{matrix} ({degrees}-degree)"
-    return Answer("moments", node.label(), label, node.order, method,
-                  moments=[(p, _answer_value(v)) for p, v in vals],
-                  inputs={"order": order, "degrees": degrees, "per_vertex": per_vertex})
-
-
-__all__ = ["trace_moments", "moment_answer", "MomentEngine", "WordTraces", "exact_matrix",
+__all__ = ["trace_moments", "_finish", "_answer_value", "MomentEngine", "WordTraces", "exact_matrix",
            "exact_degrees", "exact_adjacency", "MAX_DIGITS"]

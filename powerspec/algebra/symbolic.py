@@ -55,11 +55,11 @@ from typing import Any
 import numpy as np
 import sympy
 
-from . import expressions
-from .algebra import Leaf, Product
-from .errors import ExpressionError, InputError, NotExactError, SizeLimitError, SymbolicError
-from .factors import MATRIX_KINDS, Factor, from_matrix
-from .products import MATRIX_RULES, NON_EXACT_REASON, PRODUCT_KINDS, Combination
+from powerspec.algebra import grammar as expressions
+from powerspec.algebra.engine import Leaf, Product
+from powerspec.algebra.kinds import MATRIX_RULES, NON_EXACT_REASON, PRODUCT_KINDS, Combination
+from powerspec.errors import ExpressionError, InputError, NotExactError, SizeLimitError, SymbolicError
+from powerspec.factors.core import MATRIX_KINDS, Factor, from_matrix
 
 __all__ = [
     "MAX_EXACT_ORDER",
@@ -442,7 +442,7 @@ def symbolic_product(product: str | tuple, *operands: Any) -> SymProduct:
     int or a sympy Symbol.
 
     >>> k = sympy.Symbol("k", integer=True, positive=True)
-    >>> from powerspec.factors import complete
+    >>> from powerspec.factors.core import complete
     >>> symbolic_product("cart", (complete(2), k)).label()
     'cart(complete(2)^k)'
     """

@@ -19,9 +19,9 @@ from typing import Any
 
 import mpmath
 
-from .counts import BigCount
-from .errors import InputError
-from .measures import Spectrum
+from powerspec.errors import InputError
+from powerspec.numbers.counts import BigCount
+from powerspec.spectra.measures import Spectrum
 
 MAX_JSON_DIGITS = 400_000
 """Integers with more decimal digits are written as a string of their leading digits."""

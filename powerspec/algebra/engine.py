@@ -23,19 +23,19 @@ from functools import reduce
 
 import numpy as np
 
-from .counts import BigCount, power_product
-from .counts import log2 as count_log2
-from .errors import InputError, NotExactError, SizeLimitError
-from .factors import Factor
-from .measures import LINEAR_MAX, Spectrum, mult_array, outer_mult, polar_add, polar_mul
-from .powers import check_pairs, composition_count, outer, power
-from .products import (
+from powerspec.algebra.kinds import (
     MATRIX_KINDS,
     MATRIX_RULES,
     NON_EXACT_REASON,
     REGULAR_FORM,
     Combination,
 )
+from powerspec.algebra.powers import check_pairs, composition_count, outer, power
+from powerspec.errors import InputError, NotExactError, SizeLimitError
+from powerspec.factors.core import Factor
+from powerspec.numbers.counts import BigCount, power_product
+from powerspec.numbers.counts import log2 as count_log2
+from powerspec.spectra.measures import LINEAR_MAX, Spectrum, mult_array, outer_mult, polar_add, polar_mul
 
 DEFAULT_LIMIT = 2_000_000
 """Default largest number of distinct eigenvalues an exact answer may hold."""
@@ -130,7 +130,7 @@ class Engine:
     result, ``limit * PAIR_FACTOR`` the pairs formed in one step.  Results are
     cached per (node, kind), so a repeated sub-expression costs once.
 
-    >>> from powerspec.factors import complete
+    >>> from powerspec.factors.core import complete
     >>> q3 = Product(Combination(1.0, 0.0), ((Leaf(complete(2)), 3),))
     >>> Engine().spectrum(q3).atoms()
     [(-3.0, 1), (-1.0, 3), (1.0, 3), (3.0, 1)]

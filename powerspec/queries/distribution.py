@@ -45,20 +45,22 @@ import mpmath
 import numpy as np
 from scipy import stats
 
-from .algebra import DEFAULT_LIMIT, Engine, Leaf, Node, Product
-from .answers import Answer
-from .bracket import GRID_LIMIT, AddBracket, MulBracket, choose_spacing
-from .errors import InputError, NotExactError, SizeLimitError
-from .laws import (
+from powerspec.algebra.engine import DEFAULT_LIMIT, Engine, Leaf, Node, Product
+from powerspec.algebra.kinds import CARTESIAN, MATRIX_KINDS, MATRIX_RULES
+from powerspec.algebra.powers import outer, power
+from powerspec.answers.answer import Answer
+from powerspec.errors import InputError, NotExactError, SizeLimitError
+from powerspec.numbers.counts import log2
+from powerspec.queries.common import matrix_label, resolve
+from powerspec.spectra.measures import RTOL, Spectrum
+from powerspec.tiers.bracket import GRID_LIMIT, AddBracket, MulBracket, choose_spacing
+from powerspec.tiers.laws import (
     BERRY_ESSEEN_IID,
     BERRY_ESSEEN_NONIID,
     ProductLaw,
     SumLaw,
     _keep,
 )
-from .measures import RTOL, Spectrum
-from .powers import outer, power
-from .products import CARTESIAN, MATRIX_KINDS, MATRIX_RULES
 
 METHODS = ("auto", "exact", "bracket", "law")
 DEFAULT_TOL = 1e-3
@@ -500,8 +502,6 @@ class _Query:
         _check_method(method, tol)
         if matrix not in MATRIX_KINDS:
             raise InputError(f"unknown matrix kind {matrix!r}; choose one of {', '.join(MATRIX_KINDS)}")
-        from .planner import resolve  # late: the planner imports this module
-
         self.node = resolve(expr)
         self.matrix, self.method_req, self.tol = matrix, method, tol
         self.degrees = degrees
@@ -655,9 +655,7 @@ class _Query:
 
 
 def _answer(query, q: _Query, tier, est, lo, hi, inputs):
-    from .planner import _matrix_label  # late: the planner imports this module
-
-    return Answer(query, q.label, _matrix_label(q.matrix, q.node, q.degrees), q.node.order,
+    return Answer(query, q.label, matrix_label(q.matrix, q.node, q.degrees), q.node.order,
                   tier.method, estimate=est, lower=lo, upper=hi,
                   inputs={**inputs, "method": q.method_req, "tol": q.tol, "limit": q.eng.limit,
                           "degrees": q.degrees, "tier": tier.name})
@@ -718,7 +716,6 @@ def _scale_count(n, frac, kind: str):
 
 
 def _log2_of(n) -> float:
-    from .counts import log2
     return log2(n)
 
 

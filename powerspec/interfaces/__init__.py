@@ -1,0 +1,1 @@
+"""Stage 7 -- interfaces: command line, demo, plots; translation only, no mathematics."""

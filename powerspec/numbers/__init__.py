@@ -1,0 +1,1 @@
+"""Scalar domains and exact counts: certified balls, high-precision numbers, big exact counts."""

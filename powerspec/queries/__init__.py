@@ -1,0 +1,1 @@
+"""Stage 5 -- queries and planner: pick the cheapest tier that meets the size limit and accuracy."""

@@ -1,0 +1,1 @@
+"""Stage 2 -- spectra: eigenvalue multisets with exact multiplicities and certified values."""
