@@ -22,7 +22,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))  # run from a ch
 import powerspec as ps  # noqa: E402
 from powerspec.queries.distribution import _Query, cdf  # noqa: E402
 
-FACTORS = ["complete(2)", "cycle(5)", "motif()"]
+FACTORS = ["K(2)", "C(5)", "motif()"]
 POWERS = [3, 10, 100, 1000, 10**6]
 EXPLICIT_MAX = 4096  # vertices of the largest product built for the numpy baseline
 
@@ -57,11 +57,11 @@ def main() -> None:
             expr = f"cart({f}^{k})"
             x = bulk_point(expr)
             truth = None
-            if f == "complete(2)" and k <= 100_000:
+            if f == "K(2)" and k <= 100_000:
                 truth = binomial_truth(k, x)
             results = {}
             for method in ("exact", "bracket", "law"):
-                if method == "exact" and not (f == "complete(2)" or k <= 1000 and f == "cycle(5)"
+                if method == "exact" and not (f == "K(2)" or k <= 1000 and f == "C(5)"
                                               or k <= 10):
                     results[method] = (None, 0.0, "skipped (too large)")
                     continue

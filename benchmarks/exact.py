@@ -51,19 +51,19 @@ def explicit(expr_factors, comb):
 def part1():
     print("Part 1: powerspec exact spectrum vs explicit build + numpy eigensolver")
     print(f"  {'product':<34} {'order':>6} {'baseline s':>11} {'powerspec s':>12} {'ratio':>8}  agree")
-    k2 = ps.complete(2).adjacency.toarray()
-    c = {m: ps.cycle(m).adjacency.toarray() for m in (12, 16)}
-    p3 = ps.path(3).adjacency.toarray()
-    c5 = ps.cycle(5).adjacency.toarray()
+    k2 = ps.K(2).adjacency.toarray()
+    c = {m: ps.C(m).adjacency.toarray() for m in (12, 16)}
+    p3 = ps.P(3).adjacency.toarray()
+    c5 = ps.C(5).adjacency.toarray()
     dc = ps.dicycle(6).adjacency.toarray()
     cases = [
-        ("cart(complete(2)^10)", [k2] * 10, (1, 0)),
-        ("cart(complete(2)^11)", [k2] * 11, (1, 0)),
-        ("cart(complete(2)^12)", [k2] * 12, (1, 0)),
-        ("cart(cycle(12)^3)", [c[12]] * 3, (1, 0)),
-        ("cart(cycle(16)^3)", [c[16]] * 3, (1, 0)),
-        ("direct(path(3)^6, cycle(5))", [p3] * 6 + [c5], (0, 1)),
-        ("strong(path(3)^5, cycle(5))", [p3] * 5 + [c5], (1, 1)),
+        ("cart(K(2)^10)", [k2] * 10, (1, 0)),
+        ("cart(K(2)^11)", [k2] * 11, (1, 0)),
+        ("cart(K(2)^12)", [k2] * 12, (1, 0)),
+        ("cart(C(12)^3)", [c[12]] * 3, (1, 0)),
+        ("cart(C(16)^3)", [c[16]] * 3, (1, 0)),
+        ("direct(P(3)^6, C(5))", [p3] * 6 + [c5], (0, 1)),
+        ("strong(P(3)^5, C(5))", [p3] * 5 + [c5], (1, 1)),
         ("cart(dicycle(6)^4)", [dc] * 4, (1, 0)),
     ]
     for expr, mats, comb in cases:
@@ -92,15 +92,15 @@ def part2():
     print("\nPart 2: growth of powerspec's cost with k (no baseline can run at these sizes)")
     print(f"  {'expression':<34} {'distinct':>9} {'seconds':>10}")
     for k in (10, 100, 1000, 10_000, 100_000):
-        expr = f"cart(complete(2)^{k})"
+        expr = f"cart(K(2)^{k})"
         t, ans = best_of(lambda e=expr: Engine().spectrum(ps.parse(e)), repeat=1 if k > 1000 else 3)
         print(f"  {expr:<34} {len(ans):>9} {t:>10.4f}")
     for d in (2, 4, 6, 8, 12, 20):
-        expr = f"cart(cycle(10)^{d})"
+        expr = f"cart(C(10)^{d})"
         t, ans = best_of(lambda e=expr: ps.spectrum(e).atoms, repeat=1)
         print(f"  {expr:<34} {len(ans):>9} {t:>10.4f}")
-    for expr in ("cart(complete(2)^1000000000)", "direct(path(3)^100000)",
-                 "strong(complete(3)^1000000000)", "cart(motif()^1000000)"):
+    for expr in ("cart(K(2)^1000000000)", "direct(P(3)^100000)",
+                 "strong(K(3)^1000000000)", "cart(motif()^1000000)"):
         t, ans = best_of(lambda e=expr: ps.top(e, 3 if "strong" not in e else 1))
         print(f"  top {expr:<30} {len(ans.atoms):>9} {t:>10.4f}")
 

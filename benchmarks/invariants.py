@@ -24,15 +24,15 @@ from powerspec.numbers.counts import log2 as count_log2
 from powerspec.queries.invariants import invariants
 
 CASES = [
-    ("cart(cycle(10)^6)", (1, 0), True),
-    ("cart(complete(2)^20)", (1, 0), True),
-    ("direct(path(3)^12)", (0, 1), True),
-    ("strong(cycle(5)^6)", (1, 1), True),
-    ("cart(cycle(10)^50)", (1, 0), False),
-    ("cart(complete(2)^1000)", (1, 0), False),
-    ("direct(path(3)^300)", (0, 1), False),
-    ("strong(complete(3)^600)", (1, 1), False),
-    ("cart(complete(10)^300)", (1, 0), False),
+    ("cart(C(10)^6)", (1, 0), True),
+    ("cart(K(2)^20)", (1, 0), True),
+    ("direct(P(3)^12)", (0, 1), True),
+    ("strong(C(5)^6)", (1, 1), True),
+    ("cart(C(10)^50)", (1, 0), False),
+    ("cart(K(2)^1000)", (1, 0), False),
+    ("direct(P(3)^300)", (0, 1), False),
+    ("strong(K(3)^600)", (1, 1), False),
+    ("cart(K(10)^300)", (1, 0), False),
 ]
 
 

@@ -9,7 +9,7 @@ answers queries as :class:`~powerspec.answers.Answer` objects; the
 :mod:`~powerspec.cli` and :mod:`~powerspec.demo` only translate.
 
 >>> import powerspec
->>> powerspec.spectrum("cart(complete(2)^2)").atoms.atoms()
+>>> powerspec.spectrum("cart(K(2)^2)").atoms.atoms()
 [(-2.0, 1), (0.0, 2), (2.0, 1)]
 """
 
@@ -27,26 +27,13 @@ from powerspec.errors import (  # noqa: E402
     SizeLimitError,
     SymbolicError,
 )
-from powerspec.factors.core import (  # noqa: E402
-    Factor,
-    complete,
-    complete_bipartite,
-    cycle,
-    dicycle,
-    from_matrix,
-    load,
-    loops,
-    motif,
-    path,
-    scale,
-    star,
-)
+from powerspec.factors import C, Factor, J, K, P, dicycle, from_matrix, load, loops, motif, scale  # noqa: E402
 from powerspec.queries.planner import cdf, count, quantile, spectrum, top  # noqa: E402
 from powerspec.spectra.measures import Spectrum  # noqa: E402
 
 __all__ = [
     "Answer", "Engine", "ExpressionError", "Factor", "FactorFileError", "InputError", "Leaf",
     "NotExactError", "PowerspecError", "Product", "SizeLimitError", "Spectrum", "SymbolicError",
-    "complete", "complete_bipartite", "cycle", "dicycle", "from_matrix", "load", "loops",
-    "motif", "parse", "path", "scale", "spectrum", "star", "top", "cdf", "count", "quantile",
+    "C", "J", "K", "P", "dicycle", "from_matrix", "load", "loops",
+    "motif", "parse", "scale", "spectrum", "top", "cdf", "count", "quantile",
 ]

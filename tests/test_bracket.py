@@ -26,9 +26,9 @@ def test_hypercube_bracket_is_exact_on_its_lattice(k):
 
 
 def test_non_lattice_bracket_contains_exact_and_shrinks():
-    # source: exact spectrum of cart(cycle(5)^8) from the engine (checked against numpy in
+    # source: exact spectrum of cart(C(5)^8) from the engine (checked against numpy in
     # tests/test_engine.py); torus eigenvalues sum 2cos(2 pi j / 5)
-    sp = ps.spectrum("cart(cycle(5)^8)").atoms
+    sp = ps.spectrum("cart(C(5)^8)").atoms
     vals = np.repeat(sp.values, sp.mult.astype(np.int64))
     v = 2 * np.cos(2 * np.pi * np.arange(5) / 5)
     widths = []
@@ -46,9 +46,9 @@ def test_non_lattice_bracket_contains_exact_and_shrinks():
 
 
 def test_direct_bracket_signs_and_zero_mass():
-    # source: numpy eigvalsh of the explicit Kronecker product path(3) (x) path(3) (x) complete(3)
-    p3 = ps.path(3).adjacency.toarray()
-    k3 = ps.complete(3).adjacency.toarray()
+    # source: numpy eigvalsh of the explicit Kronecker product P(3) (x) P(3) (x) K(3)
+    p3 = ps.P(3).adjacency.toarray()
+    k3 = ps.K(3).adjacency.toarray()
     eig = np.linalg.eigvalsh(np.kron(np.kron(p3, p3), k3))
     vp = np.array([-math.sqrt(2), 0.0, math.sqrt(2)])
     vk = np.array([-1.0, 2.0])

@@ -19,7 +19,7 @@ def run(argv, capsys):
 
 
 def test_spectrum_json_keys_and_exact_multiplicities(capsys):
-    code, out, err = run(["spectrum", "cart(complete(2)^100)", "--json"], capsys)
+    code, out, err = run(["spectrum", "cart(K(2)^100)", "--json"], capsys)
     assert code == 0 and err == ""
     data = json.loads(out)
     for key in ("expression", "matrix", "order", "method", "atoms"):
@@ -41,7 +41,7 @@ def test_top_json_complex_values(capsys):
 
 
 def test_huge_values_written_as_json_numbers(capsys):
-    code, out, _ = run(["top", "direct(complete(3)^2000)", "-m", "1", "--json"], capsys)
+    code, out, _ = run(["top", "direct(K(3)^2000)", "-m", "1", "--json"], capsys)
     assert code == 0
     # json.loads turns out-of-range literals into inf, so read them exactly with Decimal.
     from decimal import Decimal
@@ -54,14 +54,14 @@ def test_huge_values_written_as_json_numbers(capsys):
 
 
 def test_text_output_readable(capsys):
-    code, out, _ = run(["spectrum", "cart(cycle(4)^2)"], capsys)
+    code, out, _ = run(["spectrum", "cart(C(4)^2)"], capsys)
     assert code == 0
     assert "eigenvalue" in out and "multiplicity" in out and "16 vertices" in out
 
 
 def test_output_file_atomic(tmp_path, capsys):
     target = tmp_path / "q.json"
-    code, out, _ = run(["spectrum", "cart(complete(2)^3)", "--json", "--output", str(target)],
+    code, out, _ = run(["spectrum", "cart(K(2)^3)", "--json", "--output", str(target)],
                        capsys)
     assert code == 0 and out == ""
     assert json.loads(target.read_text())["order"] == 8
@@ -71,23 +71,23 @@ def test_output_file_atomic(tmp_path, capsys):
 @pytest.mark.parametrize(
     "argv,phrase",
     [
-        (["spectrum", "cart(cycle(5)"], "column 14"),
-        (["spectrum", "cycle(5)^3"], "only meaningful inside a product"),
-        (["spectrum", "cart(cycle(5)^-2)"], "at least 1"),
-        (["spectrum", "cart(cycle(5)^2.5)"], "whole number"),
+        (["spectrum", "cart(C(5)"], "column 10"),
+        (["spectrum", "C(5)^3"], "only meaningful inside a product"),
+        (["spectrum", "cart(C(5)^-2)"], "at least 1"),
+        (["spectrum", "cart(C(5)^2.5)"], "whole number"),
         (["spectrum", "cart(hexagon(5)^2)"], "unknown function"),
-        (["spectrum", "cart(cycle(2)^2)"], "cycle"),
-        (["spectrum", "cart(cycle(5) cycle(4))"], "column"),
+        (["spectrum", "cart(C(2)^2)"], "C(n)"),
+        (["spectrum", "cart(C(5) C(4))"], "column"),
         (["spectrum", 'cart(load("/no/such/file.mtx")^2)'], "/no/such/file.mtx"),
         (["spectrum", "cart(motif()^200)"], "limit"),
-        (["spectrum", "direct(path(3), star(3))", "--matrix", "laplacian"], "not exact"),
+        (["spectrum", "direct(P(3), K(1, 3))", "--matrix", "laplacian"], "not exact"),
         (["spectrum", "cart(dicycle(3)^2)", "--matrix", "normalized"], "undirected"),
-        (["spectrum", "cart(cycle(5)^2)", "--limit", "0"], "positive"),
-        (["spectrum", "cart(cycle(5)^2)", "--matrix", "weird"], "invalid choice"),
-        (["top", "cart(cycle(5)^2)", "-m", "x"], "positive whole number"),
+        (["spectrum", "cart(C(5)^2)", "--limit", "0"], "positive"),
+        (["spectrum", "cart(C(5)^2)", "--matrix", "weird"], "invalid choice"),
+        (["top", "cart(C(5)^2)", "-m", "x"], "positive whole number"),
         (["frobnicate"], "invalid choice"),
         (["spectrum", ""], "empty"),
-        (["spectrum", "cart(cycle(5)^2) extra"], "unexpected"),
+        (["spectrum", "cart(C(5)^2) extra"], "unexpected"),
     ],
 )
 def test_user_errors_one_line_exit_2(argv, phrase, capsys):
@@ -111,7 +111,7 @@ def test_python_dash_m_and_demo():
                           text=True, timeout=300)
     assert proc.returncode == 0, proc.stderr
     assert "22-cube" in proc.stdout and "motif" in proc.stdout
-    proc = subprocess.run([sys.executable, "-m", "powerspec", "spectrum", "cart(cycle(5)"],
+    proc = subprocess.run([sys.executable, "-m", "powerspec", "spectrum", "cart(C(5)"],
                           capture_output=True, text=True, timeout=60)
     assert proc.returncode == 2 and proc.stderr.count("\n") == 1
 
@@ -119,18 +119,18 @@ def test_python_dash_m_and_demo():
 def test_symbolic_flag_round_trips_through_sympy(capsys):
     import sympy
 
-    code, out, _ = run(["spectrum", "cart(complete(2)^k)", "--symbolic", "--json"], capsys)
+    code, out, _ = run(["spectrum", "cart(K(2)^k)", "--symbolic", "--json"], capsys)
     assert code == 0
     data = json.loads(out)
     k, j = sympy.symbols("k j")
     # source: Q_k closed form, eigenvalue k - 2j with multiplicity C(k, j) (textbook)
     assert sympy.simplify(sympy.sympify(data["symbolic"]["eigenvalue"]) - (k - 2 * j)) == 0
     assert sympy.sympify(data["order"]) == 2**k
-    code, out, _ = run(["moments", "cart(complete(2)^k)", "--symbolic", "--order", "2",
+    code, out, _ = run(["moments", "cart(K(2)^k)", "--symbolic", "--order", "2",
                         "--latex"], capsys)
     assert code == 0 and "k" in out
 
 
 def test_latex_needs_symbolic(capsys):
-    code, _, err = run(["spectrum", "cart(complete(2)^3)", "--latex"], capsys)
+    code, _, err = run(["spectrum", "cart(K(2)^3)", "--latex"], capsys)
     assert code == 2 and "--symbolic" in err

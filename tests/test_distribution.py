@@ -30,7 +30,7 @@ def hypercube_cdf(k: int, x: float) -> Fraction:
 # ------------------------------------------------------------- hypercube
 @pytest.mark.parametrize("k", [10, 200, 2000])
 def test_hypercube_every_tier_brackets_binomial_sum(k):
-    expr = f"cart(complete(2)^{k})"
+    expr = f"cart(K(2)^{k})"
     xs = sorted({-k - 1.0, -k, -k + 0.5, float(-k // 2), -3.0, 0.0, 0.5, 1.0, 7.0,
                  float(k // 3), k - 2.0, float(k), k + 3.0})
     worst = 0.0
@@ -52,10 +52,10 @@ def test_hypercube_count_and_quantile():
     # source: binomial sums with Python integers (closed form above)
     want = sum(math.comb(k, j) for j in range(k + 1) if -10 <= k - 2 * j <= 10)
     for method in ("exact", "bracket", "law"):
-        a = count(f"cart(complete(2)^{k})", -10, 10, method=method)
+        a = count(f"cart(K(2)^{k})", -10, 10, method=method)
         assert a.lower <= want <= a.upper, method
-    assert count(f"cart(complete(2)^{k})", -10, 10, method="exact").estimate == want
-    assert n == ps.spectrum(f"cart(complete(2)^{k})").atoms.order
+    assert count(f"cart(K(2)^{k})", -10, 10, method="exact").estimate == want
+    assert n == ps.spectrum(f"cart(K(2)^{k})").atoms.order
     # quantile: the exact q-quantile is the smallest k - 2j with cdf >= q (binomial sums)
     cum, run = {}, 0
     for j in range(k, -1, -1):  # eigenvalue k - 2j ascending
@@ -64,14 +64,14 @@ def test_hypercube_count_and_quantile():
     for q in (0.01, 0.5, 0.93):
         exact_q = min(x for x in cum if cum[x] >= q)
         for method in ("exact", "bracket", "law"):
-            a = quantile(f"cart(complete(2)^{k})", q, method=method)
+            a = quantile(f"cart(K(2)^{k})", q, method=method)
             assert a.lower <= exact_q <= a.upper, (q, method, a.lower, exact_q, a.upper)
-        assert quantile(f"cart(complete(2)^{k})", q, method="exact").estimate == exact_q
+        assert quantile(f"cart(K(2)^{k})", q, method="exact").estimate == exact_q
 
 
 # --------------------------------------------------------------- coverage
-FACTORS = ["path(3)", "star(3)", "cycle(4)", "cycle(5)", "complete(3)", "complete(2)", "motif()",
-           "path(4)", "complete_bipartite(2, 3)", "loops(0.5, path(3))", "dicycle(5)"]
+FACTORS = ["P(3)", "K(1, 3)", "C(4)", "C(5)", "K(3)", "K(2)", "motif()",
+           "P(4)", "K(2, 3)", "loops(0.5, P(3))", "dicycle(5)"]
 KINDS = ["cart(", "direct(", "strong(", "mix(1, 0.5, ", "mix(0, 2, "]
 
 
@@ -84,7 +84,7 @@ def _cases(n_cases: int, seed: int = 7):
         if f == "dicycle(5)" and kind != "cart(":
             continue  # complex spectra under multiplicative rules: exact tier only
         k = rng.choice([2, 3, 4, 6, 9, 13])
-        extra = rng.choice(["", "", ", cycle(5)", ", path(3)"])
+        extra = rng.choice(["", "", ", C(5)", ", P(3)"])
         out.append(f"{kind}{f}^{k}{extra})")
     return out
 
@@ -121,11 +121,11 @@ def test_coverage_bracket_and_law_contain_truth():
 
 
 @pytest.mark.parametrize("expr,a,b", [
-    ("direct(path(3)^3, cycle(5))", 0.0, 1.0),
-    ("strong(star(3)^2, cycle(4))", 1.0, 1.0),
-    ("mix(1, 0.5, complete(3)^3)", 1.0, 0.5),
-    ("mix(0, 2, path(4)^2, cycle(5))", 0.0, 2.0),
-    ("cart(motif()^2, path(3))", 1.0, 0.0),
+    ("direct(P(3)^3, C(5))", 0.0, 1.0),
+    ("strong(K(1, 3)^2, C(4))", 1.0, 1.0),
+    ("mix(1, 0.5, K(3)^3)", 1.0, 0.5),
+    ("mix(0, 2, P(4)^2, C(5))", 0.0, 2.0),
+    ("cart(motif()^2, P(3))", 1.0, 0.0),
 ])
 def test_every_tier_contains_numpy_truth(expr, a, b):
     # source: numpy.linalg.eigvalsh on the product built with scipy.sparse.kron (tests/reference)
@@ -141,10 +141,10 @@ def test_every_tier_contains_numpy_truth(expr, a, b):
 
 
 # ----------------------------------------------------------- zero share
-@pytest.mark.parametrize("factor,n,zeros", [("star(3)", 4, 2), ("path(3)", 3, 1), ("path(5)", 5, 1)])
+@pytest.mark.parametrize("factor,n,zeros", [("K(1, 3)", 4, 2), ("P(3)", 3, 1), ("P(5)", 5, 1)])
 @pytest.mark.parametrize("k", [2, 4, 9])
 def test_direct_power_zero_share_exact(factor, n, zeros, k):
-    # source: a product of k factor eigenvalues is 0 iff one of them is; star(n) has n-2 zero
+    # source: a product of k factor eigenvalues is 0 iff one of them is; K(1, n) has n-2 zero
     # eigenvalues and path(odd) one (textbook spectra, from memory): share 1 - (1 - p0)^k
     p0 = Fraction(zeros, n)
     share = 1 - (1 - p0) ** k
@@ -157,21 +157,21 @@ def test_direct_power_zero_share_exact(factor, n, zeros, k):
 
 
 def test_zero_share_huge_power():
-    # source: 1 - (2/3)^k evaluated with mpmath (path(3) has one zero eigenvalue of three)
-    a = cdf("direct(path(3)^1000000000)", 0.0, method="law")
+    # source: 1 - (2/3)^k evaluated with mpmath (P(3) has one zero eigenvalue of three)
+    a = cdf("direct(P(3)^1000000000)", 0.0, method="law")
     want = 1 - mpmath.power(mpmath.mpf(2) / 3, 10**9) / 2  # zero mass + negative half
     assert a.lower <= want <= a.upper
 
 
 # ------------------------------------------------------------- big powers
 def test_huge_powers_answer_quickly():
-    a = cdf("cart(cycle(5)^1000000000)", 0.0)
+    a = cdf("cart(C(5)^1000000000)", 0.0)
     assert a.method.startswith("law") and 0 <= a.lower <= a.estimate <= a.upper <= 1
-    # source: symmetric-about-the-mean? no -- cycle(5) has mean 0 (trace 0), so cdf(0) is about 1/2
+    # source: symmetric-about-the-mean? no -- C(5) has mean 0 (trace 0), so cdf(0) is about 1/2
     assert abs(a.estimate - 0.5) < 1e-3
-    c = count("cart(complete(3)^1000000000)", -1e9, 2e9)
+    c = count("cart(K(3)^1000000000)", -1e9, 2e9)
     assert c.upper == c.order or isinstance(c.upper, mpmath.mpf)
-    qd = quantile("direct(complete(3)^1000000)", 0.9, method="law")
+    qd = quantile("direct(K(3)^1000000)", 0.9, method="law")
     # source: the 0.9-quantile of 2^a (-1)^b is positive (P(S > 0) = (1 + (-1/3)^k) / 2 = 1/2)
     assert qd.lower <= qd.estimate <= qd.upper and qd.estimate > 0
 
@@ -179,32 +179,32 @@ def test_huge_powers_answer_quickly():
 # ------------------------------------------------------------------ errors
 def test_errors():
     with pytest.raises(ps.InputError):
-        cdf("cart(cycle(5)^3)", 0.0, method="fast")
+        cdf("cart(C(5)^3)", 0.0, method="fast")
     for bad in (0, -1e-3, float("nan"), True):
         with pytest.raises(ps.InputError):
-            cdf("cart(cycle(5)^3)", 0.0, tol=bad)
+            cdf("cart(C(5)^3)", 0.0, tol=bad)
     for q in (0, 1, -0.5, 1.5, float("nan")):
         with pytest.raises(ps.InputError):
-            quantile("cart(cycle(5)^3)", q)
+            quantile("cart(C(5)^3)", q)
     for x in (float("inf"), float("nan"), "1"):
         with pytest.raises(ps.InputError):
-            cdf("cart(cycle(5)^3)", x)
+            cdf("cart(C(5)^3)", x)
     with pytest.raises(ps.InputError):
-        count("cart(cycle(5)^3)", 2.0, 1.0)
+        count("cart(C(5)^3)", 2.0, 1.0)
     with pytest.raises(ps.SizeLimitError):
         cdf("cart(motif()^100000)", 0.0, method="bracket", tol=1e-6)
     with pytest.raises(ps.SizeLimitError):
         cdf("cart(motif()^100000)", 0.0, method="exact")
     with pytest.raises(ps.NotExactError):
-        cdf("mix(2, 1, path(3)^40)", 0.0, method="law")
+        cdf("mix(2, 1, P(3)^40)", 0.0, method="law")
     with pytest.raises(ps.NotExactError):
-        cdf("direct(path(3)^40)", 0.0, "laplacian")
+        cdf("direct(P(3)^40)", 0.0, "laplacian")
     with pytest.raises(ps.NotExactError):
         cdf("direct(dicycle(3)^40)", 0.0, method="law")
 
 
 def test_auto_meets_tol_or_refuses():
-    a = cdf("cart(cycle(5)^100000)", 3.0, tol=0.01)
+    a = cdf("cart(C(5)^100000)", 3.0, tol=0.01)
     assert a.upper - a.lower <= 0.01
     assert a.inputs["tier"] in ("law", "bracket")
     # at the mean (k tr(A) / n, numpy trace) the law's Berry-Esseen width is far above 1e-7

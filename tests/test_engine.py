@@ -31,7 +31,7 @@ def atoms(expr, matrix="adjacency", **kw):
 def test_hypercube_adjacency_closed_form(k):
     # source: Q_k has eigenvalues k - 2j with multiplicity C(k, j)
     # (Brouwer & Haemers, Spectra of Graphs, §1.4.6 -- from memory)
-    got = atoms(f"cart(complete(2)^{k})")
+    got = atoms(f"cart(K(2)^{k})")
     want = [(float(k - 2 * j), math.comb(k, j)) for j in range(k, -1, -1)]
     assert got == want
     assert sum(m for _, m in got) == 2**k
@@ -40,7 +40,7 @@ def test_hypercube_adjacency_closed_form(k):
 @pytest.mark.parametrize("k", [1, 5, 64, 2000])
 def test_hypercube_laplacian_closed_form(k):
     # source: Laplacian of Q_k = k I - A, eigenvalues 2j with multiplicity C(k, j) (same ref)
-    got = atoms(f"cart(complete(2)^{k})", "laplacian")
+    got = atoms(f"cart(K(2)^{k})", "laplacian")
     assert got == [(float(2 * j), math.comb(k, j)) for j in range(k + 1)]
 
 
@@ -48,7 +48,7 @@ def test_hypercube_matches_numpy_small():
     # source: numpy.linalg.eigvalsh on Q_6 built with scipy.sparse.kron
     a = np.array([[0.0, 1.0], [1.0, 0.0]])
     explicit = fold([a] * 6, 1.0, 0.0)
-    got = expand(ps.spectrum("cart(complete(2)^6)").atoms)
+    got = expand(ps.spectrum("cart(K(2)^6)").atoms)
     assert multiset_distance(got, np.linalg.eigvalsh(explicit)) < 1e-9
 
 
@@ -58,7 +58,7 @@ def test_torus_against_numpy_and_closed_form(m, d):
     c = np.roll(np.eye(m), 1, axis=1)
     c = c + c.T
     explicit = fold([c] * d, 1.0, 0.0)
-    got = expand(ps.spectrum(f"cart(cycle({m})^{d})").atoms)
+    got = expand(ps.spectrum(f"cart(C({m})^{d})").atoms)
     # source: numpy.linalg.eigvalsh on the explicit Kronecker sum
     assert multiset_distance(got, np.linalg.eigvalsh(explicit)) < 1e-9
     # source: torus closed form sum_i 2cos(2 pi j_i / m) (textbook)
@@ -68,8 +68,8 @@ def test_torus_against_numpy_and_closed_form(m, d):
 
 
 def test_torus_large_power_counts():
-    # source: order of cart(cycle(m)^d) is m^d (definition); the merged multiset covers it
-    sp = ps.spectrum("cart(cycle(10)^6)").atoms
+    # source: order of cart(C(m)^d) is m^d (definition); the merged multiset covers it
+    sp = ps.spectrum("cart(C(10)^6)").atoms
     assert sp.order == 10**6
     # source: largest eigenvalue 2d of the d-dimensional torus, multiplicity 1 (textbook)
     assert sp.atoms()[-1] == (12.0, 1)
@@ -84,7 +84,7 @@ def test_direct_power_of_complete_graph(n, k):
     for j in range(k + 1):
         v = (n - 1) ** (k - j) * (-1) ** j
         want[v] = want.get(v, 0) + math.comb(k, j) * (n - 1) ** j
-    got = atoms(f"direct(complete({n})^{k})")
+    got = atoms(f"direct(K({n})^{k})")
     assert [(float(v), m) for v, m in sorted(want.items())] == got
 
 
@@ -92,7 +92,7 @@ def test_direct_power_of_complete_graph(n, k):
 def test_strong_power_of_complete_graph_is_complete(q, k):
     # source: strong(K_q^k) is the complete graph on q^k vertices (definition), whose
     # spectrum is q^k - 1 once and -1 with multiplicity q^k - 1 (textbook)
-    sp = ps.spectrum(f"strong(complete({q})^{k})").atoms
+    sp = ps.spectrum(f"strong(K({q})^{k})").atoms
     assert sp.order == q**k
     vals = sp.atoms()
     assert vals[0] == (-1.0, q**k - 1)
@@ -103,7 +103,7 @@ def test_strong_power_of_complete_graph_is_complete(q, k):
 def test_direct_overflow_is_mpmath_not_inf():
     # source: closed form -- direct(K_3^2000) has largest eigenvalue 2^2000 (beyond the
     # double range), from the K_3 eigenvalues 2, -1, -1
-    sp = ps.spectrum("direct(complete(3)^2000)").atoms
+    sp = ps.spectrum("direct(K(3)^2000)").atoms
     top_value, top_mult = sp.atoms()[-1]
     assert not isinstance(top_value, float)
     import mpmath
@@ -117,14 +117,14 @@ def test_direct_overflow_is_mpmath_not_inf():
 def test_laplacian_of_direct_product_not_exact_for_irregular():
     # source: DESIGN §2 -- D_G (x) D_H - A_G (x) A_H does not factor for irregular factors
     with pytest.raises(ps.NotExactError, match="not exact"):
-        ps.spectrum("direct(path(3), star(3))", "laplacian")
+        ps.spectrum("direct(P(3), K(1, 3))", "laplacian")
 
 
 @pytest.mark.parametrize(
     "expr,ca,cb,mats",
     [
-        ("direct(cycle(4), cycle(5))", 0.0, 1.0, ("c4", "c5")),
-        ("strong(complete(3), cycle(5))", 1.0, 1.0, ("k3", "c5")),
+        ("direct(C(4), C(5))", 0.0, 1.0, ("c4", "c5")),
+        ("strong(K(3), C(5))", 1.0, 1.0, ("k3", "c5")),
     ],
 )
 @pytest.mark.parametrize("kind", ["laplacian", "signless", "normalized", "transition"])
@@ -143,15 +143,15 @@ def test_direct_product_normalized_and_transition_exact_for_irregular(kind):
     a = kron_product(_path(3), _star(3), 0.0, 1.0)
     want = eigenvalues(_kind_matrix(a, kind)) if kind == "normalized" else np.linalg.eigvals(
         _kind_matrix(a, kind))
-    got = expand(ps.spectrum("direct(path(3), star(3))", kind).atoms)
+    got = expand(ps.spectrum("direct(P(3), K(1, 3))", kind).atoms)
     assert multiset_distance(got, want) < 1e-9
 
 
 @pytest.mark.parametrize("expr,g,h,ca,cb", [
-    ("direct(path(3), cycle(4))", "p3", "c4", 0.0, 1.0),
-    ("strong(star(3), cycle(5))", "s3", "c5", 1.0, 1.0),
-    ("mix(1, 0.5, path(4), cycle(4))", "p4", "c4", 1.0, 0.5),
-    ("direct(cycle(5), star(2))", "c5", "s2", 0.0, 1.0),
+    ("direct(P(3), C(4))", "p3", "c4", 0.0, 1.0),
+    ("strong(K(1, 3), C(5))", "s3", "c5", 1.0, 1.0),
+    ("mix(1, 0.5, P(4), C(4))", "p4", "c4", 1.0, 0.5),
+    ("direct(C(5), K(1, 2))", "c5", "s2", 0.0, 1.0),
 ])
 @pytest.mark.parametrize("kind", ["laplacian", "signless"])
 def test_one_irregular_factor_laplacian_blocks(expr, g, h, ca, cb, kind):
@@ -166,22 +166,22 @@ def test_one_irregular_factor_laplacian_blocks(expr, g, h, ca, cb, kind):
 
 
 def test_cartesian_laplacian_irregular_exact():
-    # source: numpy on L = D - A of the explicit Cartesian product path(3) x star(3)
+    # source: numpy on L = D - A of the explicit Cartesian product P(3) x K(1, 3)
     a = kron_product(_path(3), _star(3), 1.0, 0.0)
-    got = expand(ps.spectrum("cart(path(3), star(3))", "laplacian").atoms)
+    got = expand(ps.spectrum("cart(P(3), K(1, 3))", "laplacian").atoms)
     assert multiset_distance(got, eigenvalues(_kind_matrix(a, "laplacian"))) < 1e-9
 
 
 def test_cartesian_transition_irregular_refused():
     with pytest.raises(ps.NotExactError, match="regular"):
-        ps.spectrum("cart(path(3), star(3))", "transition")
+        ps.spectrum("cart(P(3), K(1, 3))", "transition")
 
 
 def test_mix_left_fold_against_explicit():
     # source: numpy on the explicit left fold ((G o G) o G) of 2(A(+)B) + 0.5 A(x)B
     g = _path(3)
     want = eigenvalues(fold([g, g, g], 2.0, 0.5))
-    got = expand(ps.spectrum("mix(2, 0.5, path(3)^3)").atoms)
+    got = expand(ps.spectrum("mix(2, 0.5, P(3)^3)").atoms)
     assert multiset_distance(got, want) < 1e-8
 
 
@@ -190,7 +190,7 @@ def test_mix_associative_cases_match_explicit():
     g = _star(2)
     for ca, cb in ((1.0, 0.5), (0.0, 2.0), (1.0, -1.0)):
         want = eigenvalues(fold([g] * 4, ca, cb))
-        got = expand(ps.spectrum(f"mix({ca}, {cb}, star(2)^4)").atoms)
+        got = expand(ps.spectrum(f"mix({ca}, {cb}, K(1, 2)^4)").atoms)
         assert multiset_distance(got, want) < 1e-8
 
 
@@ -212,12 +212,12 @@ def test_size_limit_refusal_before_work():
     with pytest.raises(ps.SizeLimitError, match="limit"):
         ps.spectrum("cart(motif()^200)")
     with pytest.raises(ps.SizeLimitError, match="top"):
-        ps.spectrum("cart(cycle(7)^6)", limit=50)
+        ps.spectrum("cart(C(7)^6)", limit=50)
 
 
 def test_squaring_path_when_values_coincide():
-    # cycle(10) eigenvalues lie in Z[(1+sqrt5)/2]: far fewer distinct sums than compositions.
-    sp = ps.spectrum("cart(cycle(10)^40)").atoms
+    # C(10) eigenvalues lie in Z[(1+sqrt5)/2]: far fewer distinct sums than compositions.
+    sp = ps.spectrum("cart(C(10)^40)").atoms
     # source: order 10^40 (definition); top eigenvalue 80 with multiplicity 1 (torus closed form)
     assert sp.order == 10**40
     assert sp.atoms()[-1] == (80.0, 1)

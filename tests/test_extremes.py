@@ -22,9 +22,9 @@ def top_atoms(expr, m, **kw):
 def test_hypercube_top_huge_k():
     # source: Q_k closed form, eigenvalues k - 2j with multiplicity C(k, j)
     k = 10**9
-    got = top_atoms(f"cart(complete(2)^{k})", 3)
+    got = top_atoms(f"cart(K(2)^{k})", 3)
     assert got == [(float(k - 2 * j), math.comb(k, j)) for j in (2, 1, 0)]
-    got = top_atoms(f"cart(complete(2)^{k})", 2, bottom=True)
+    got = top_atoms(f"cart(K(2)^{k})", 2, bottom=True)
     assert got == [(float(-k), 1), (float(-k + 2), k)]
 
 
@@ -32,39 +32,39 @@ def test_hamming_top_huge_k():
     # source: Hamming graph H(k, q) = cart(K_q^k): eigenvalues (q-1)k - qj with
     # multiplicity C(k, j)(q-1)^j (Brouwer & Haemers, Spectra of Graphs -- from memory)
     q, k = 4, 10**6
-    got = top_atoms(f"cart(complete({q})^{k})", 3)
+    got = top_atoms(f"cart(K({q})^{k})", 3)
     want = [(float((q - 1) * k - q * j), math.comb(k, j) * (q - 1) ** j) for j in (2, 1, 0)]
     assert got == want
 
 
 @pytest.mark.parametrize("k", [6, 7, 40, 41])
 def test_direct_power_with_negative_eigenvalues(k):
-    # source: closed form -- path(3) has eigenvalues -sqrt2, 0, sqrt2; the direct power has
+    # source: closed form -- P(3) has eigenvalues -sqrt2, 0, sqrt2; the direct power has
     # +-2^(k/2) (sign by parity of the number of negative picks) and 0.  For even k the
     # largest value 2^(k/2) has multiplicity 2^(k-1) (even number of -sqrt2 picks).
-    got = top_atoms(f"direct(path(3)^{k})", 1)
+    got = top_atoms(f"direct(P(3)^{k})", 1)
     (v, m), = got
     assert math.isclose(float(v), 2 ** (k / 2), rel_tol=1e-12)
     assert m == 2 ** (k - 1)
-    bot = top_atoms(f"direct(path(3)^{k})", 1, bottom=True)
+    bot = top_atoms(f"direct(P(3)^{k})", 1, bottom=True)
     assert math.isclose(float(bot[0][0]), -(2 ** (k / 2)), rel_tol=1e-12)
     assert bot[0][1] == 2 ** (k - 1)
 
 
 def test_direct_top_most_negative_factor_value():
-    # loops(-3, complete(2)) has eigenvalues -2 and -4; direct square: 16 (from (-4)^2) is the top.
+    # loops(-3, K(2)) has eigenvalues -2 and -4; direct square: 16 (from (-4)^2) is the top.
     # source: closed form products of {-2, -4}
-    got = top_atoms("direct(loops(-3, complete(2))^2)", 3)
+    got = top_atoms("direct(loops(-3, K(2))^2)", 3)
     assert got == [(4.0, 1), (8.0, 2), (16.0, 1)]
-    got3 = top_atoms("direct(loops(-3, complete(2))^3)", 2)
+    got3 = top_atoms("direct(loops(-3, K(2))^3)", 2)
     # k odd: all values negative; largest are -8 (once) and -16 (three times)
     assert got3 == [(-16.0, 3), (-8.0, 1)]
 
 
 def test_direct_power_overflow_log_form():
-    # source: closed form, complete(3) eigenvalues 2, -1, -1: top of the direct power is 2^k
+    # source: closed form, K(3) eigenvalues 2, -1, -1: top of the direct power is 2^k
     k = 10**6
-    (v, m), = top_atoms(f"direct(complete(3)^{k})", 1)
+    (v, m), = top_atoms(f"direct(K(3)^{k})", 1)
     assert isinstance(v, mpmath.mpf)
     assert mpmath.almosteq(mpmath.log(v), k * mpmath.log(2), 1e-9)
     assert m == 1
@@ -72,31 +72,31 @@ def test_direct_power_overflow_log_form():
 
 def test_strong_top_any_k():
     # source: strong(K_q^k) = K_{q^k}; top eigenvalue q^k - 1 with multiplicity 1
-    (v, m), = top_atoms("strong(complete(3)^50)", 1)
+    (v, m), = top_atoms("strong(K(3)^50)", 1)
     assert math.isclose(float(v), 3.0**50 - 1, rel_tol=1e-12) and m == 1
 
 
 def test_multiplicity_guard():
     with pytest.raises(ps.SizeLimitError, match="digits"):
-        ps.top("strong(complete(3)^1000000000)", 2)
+        ps.top("strong(K(3)^1000000000)", 2)
 
 
 def test_mixed_expression_top():
-    # source: numpy eigvalsh on the explicit product direct(path(3)^4, cycle(5))
+    # source: numpy eigvalsh on the explicit product direct(P(3)^4, C(5))
     p3 = np.array([[0, 1, 0], [1, 0, 1], [0, 1, 0]], float)
     c5 = np.roll(np.eye(5), 1, 1)
     c5 = c5 + c5.T
     explicit = fold([p3, p3, p3, p3], 0.0, 1.0)
     explicit = np.kron(explicit, c5)
     want = np.sort(np.linalg.eigvalsh(explicit))
-    got = top_atoms("direct(path(3)^4, cycle(5))", 2, limit=5)
+    got = top_atoms("direct(P(3)^4, C(5))", 2, limit=5)
     vals = [v for v, _ in got]
     assert abs(vals[-1] - want[-1]) < 1e-9
     assert sum(m for _, m in got) == int(np.sum(want > vals[0] - 1e-9))
 
 
 @pytest.mark.parametrize("expr", [
-    "cart(dicycle(5)^3)", "direct(dicycle(4)^3, path(2))", "cart(dicycle(3), cycle(4)^2)",
+    "cart(dicycle(5)^3)", "direct(dicycle(4)^3, P(2))", "cart(dicycle(3), C(4)^2)",
     "direct(dicycle(6)^4)",
 ])
 def test_complex_spectra_ordered_by_real_part(expr):
@@ -148,11 +148,11 @@ def test_best_first_equals_full_spectrum(a, b, kind, ka, kb, m, bottom):
 
 
 def test_one_irregular_factor_laplacian_beyond_the_limit():
-    # The Laplacian of direct(path(3), H) with H regular has no combination rule; with a limit
+    # The Laplacian of direct(P(3), H) with H regular has no combination rule; with a limit
     # below the product's bound, top must still agree with the full exact spectrum (or refuse),
     # never apply the regular-graph transform with a wrong degree.
     # source: the full spectrum (block construction, checked against numpy in test_engine)
-    e = "direct(path(3), cart(cycle(5)^20))"
+    e = "direct(P(3), cart(C(5)^20))"
     full = ps.spectrum(e, "laplacian").atoms
     got = ps.top(e, 2, "laplacian", limit=300).atoms.atoms()
     assert got == select(full, 2, False).atoms()

@@ -18,23 +18,26 @@ from scipy.optimize import linear_sum_assignment
 from scipy.sparse.csgraph import connected_components
 
 from powerspec.errors import FactorFileError, InputError
-from powerspec.factors.core import (
+from powerspec.factors import (
     MATRIX_KINDS,
+    C,
     Factor,
-    complete,
-    complete_bipartite,
-    cycle,
+    K,
+    P,
     dicycle,
     from_matrix,
     load,
     loops,
     motif,
-    path,
     scale,
-    star,
 )
 
 # ----------------------------------------------------------------------------- helpers
+
+
+def _star(n):
+    """The star K_{1,n}."""
+    return K(1, n)
 
 
 def same_multiset(got, expected, tol=1e-9):
@@ -95,7 +98,7 @@ def dense_complete_bipartite(m, n):
 
 @pytest.mark.parametrize("n", [1, 2, 3, 4, 7, 12])
 def test_path_closed_form_matches_numpy(n):
-    g = path(n)
+    g = P(n)
     assert np.array_equal(g.adjacency.toarray(), dense_path(n))
     # source: numpy.linalg.eigvalsh on the explicitly built path matrix
     ref = np.linalg.eigvalsh(dense_path(n))
@@ -103,22 +106,22 @@ def test_path_closed_form_matches_numpy(n):
     assert np.allclose(g.eigenvalues(), ref, atol=1e-12)
     assert np.allclose(g.closed_form, ref, atol=1e-12)
     assert g.eigenvalues().dtype == np.float64
-    assert g.name == f"path({n})"
+    assert g.name == f"P({n})"
 
 
 @pytest.mark.parametrize("n", [3, 4, 5, 6, 10, 13])
 def test_cycle_closed_form_matches_numpy(n):
-    g = cycle(n)
+    g = C(n)
     assert np.array_equal(g.adjacency.toarray(), dense_cycle(n))
     # source: numpy.linalg.eigvalsh on the explicitly built cycle matrix
     assert np.allclose(g.eigenvalues(), np.linalg.eigvalsh(dense_cycle(n)), atol=1e-12)
-    assert g.name == f"cycle({n})"
+    assert g.name == f"C({n})"
 
 
 @pytest.mark.parametrize("n", [1, 2, 3, 6])
 def test_complete_closed_form_matches_numpy(n):
     a = np.ones((n, n)) - np.eye(n)
-    g = complete(n)
+    g = K(n)
     assert np.array_equal(g.adjacency.toarray(), a)
     # source: numpy.linalg.eigvalsh on the explicitly built J - I
     assert np.allclose(g.eigenvalues(), np.linalg.eigvalsh(a), atol=1e-12)
@@ -129,7 +132,7 @@ def test_complete_closed_form_matches_numpy(n):
 @pytest.mark.parametrize("n", [1, 2, 4, 9])
 def test_star_closed_form_matches_numpy(n):
     a = dense_complete_bipartite(1, n)
-    g = star(n)
+    g = K(1, n)
     assert g.n == n + 1
     assert np.array_equal(g.adjacency.toarray(), a)
     # source: numpy.linalg.eigvalsh on the explicitly built K_{1,n}
@@ -139,11 +142,11 @@ def test_star_closed_form_matches_numpy(n):
 @pytest.mark.parametrize("m,n", [(1, 1), (2, 3), (3, 3), (4, 2)])
 def test_complete_bipartite_closed_form_matches_numpy(m, n):
     a = dense_complete_bipartite(m, n)
-    g = complete_bipartite(m, n)
+    g = K(m, n)
     assert np.array_equal(g.adjacency.toarray(), a)
     # source: numpy.linalg.eigvalsh on the explicitly built K_{m,n}
     assert np.allclose(g.eigenvalues(), np.linalg.eigvalsh(a), atol=1e-12)
-    assert g.name == f"complete_bipartite({m}, {n})"
+    assert g.name == f"K({m}, {n})"
 
 
 @pytest.mark.parametrize("n", [3, 4, 5, 8])
@@ -169,12 +172,12 @@ def test_dicycle_two_is_symmetric_with_real_spectrum():
 @pytest.mark.parametrize(
     "family,args,minimum",
     [
-        (path, (0,), "1"),
-        (cycle, (2,), "3"),
-        (complete, (0,), "1"),
-        (star, (0,), "1"),
-        (complete_bipartite, (0, 2), "1"),
-        (complete_bipartite, (2, 0), "1"),
+        (P, (0,), "1"),
+        (C, (2,), "3"),
+        (K, (0,), "1"),
+        (_star, (0,), "1"),
+        (K, (0, 2), "1"),
+        (K, (2, 0), "1"),
         (dicycle, (1,), "2"),
     ],
 )
@@ -185,7 +188,7 @@ def test_family_too_small(family, args, minimum):
 
 
 @pytest.mark.parametrize("bad", [3.0, 2.5, True, "4", None])
-@pytest.mark.parametrize("family", [path, cycle, complete, star, dicycle])
+@pytest.mark.parametrize("family", [P, C, K, _star, dicycle])
 def test_family_non_integer(family, bad):
     with pytest.raises(InputError) as excinfo:
         family(bad)
@@ -193,14 +196,14 @@ def test_family_non_integer(family, bad):
 
 
 def test_family_accepts_numpy_integer():
-    assert cycle(np.int64(5)).n == 5
+    assert C(np.int64(5)).n == 5
 
 
 # ------------------------------------------------------------------------ snapping
 
 
 def test_cycle4_has_exact_zero():
-    ev = cycle(4).eigenvalues()
+    ev = C(4).eigenvalues()
     # source: closed form 2cos(2 pi j/4) = 2, 0, -2, 0 (from memory); exact after snapping
     assert ev.tolist() == [-2.0, 0.0, 0.0, 2.0]
     assert np.count_nonzero(ev == 0.0) == 2
@@ -209,12 +212,12 @@ def test_cycle4_has_exact_zero():
 
 def test_path3_middle_eigenvalue_is_exact_zero():
     # source: closed form 2cos(pi/2) = 0 (from memory); float cos gives 6e-17 before snapping
-    assert path(3).eigenvalues()[1] == 0.0
+    assert P(3).eigenvalues()[1] == 0.0
 
 
 def test_hypercube_factor_is_exact():
     # source: closed form of K_2, eigenvalues +-1 (from memory)
-    assert complete(2).eigenvalues().tolist() == [-1.0, 1.0]
+    assert K(2).eigenvalues().tolist() == [-1.0, 1.0]
 
 
 def test_snapping_tolerance():
@@ -258,11 +261,11 @@ def test_directed_in_and_out_degrees():
 
 
 def test_regularity():
-    assert cycle(7).is_regular()
-    assert complete(4).is_regular()
+    assert C(7).is_regular()
+    assert K(4).is_regular()
     assert dicycle(5).is_regular("out") and dicycle(5).is_regular("in")
-    assert not path(3).is_regular()
-    assert not star(2).is_regular()
+    assert not P(3).is_regular()
+    assert not K(1, 2).is_regular()
     assert from_matrix([[0, 1 + 1e-14], [1, 0]]).is_regular()
     assert not from_matrix([[0, 1 + 1e-9], [1, 0]]).is_regular()
     a = np.array([[0.0, 1.0], [0.0, 0.0]])
@@ -270,18 +273,18 @@ def test_regularity():
 
 
 def test_has_loops_and_directed_flags():
-    assert not cycle(5).has_loops
-    assert loops(0.5, cycle(5)).has_loops
-    assert not cycle(5).directed
+    assert not C(5).has_loops
+    assert loops(0.5, C(5)).has_loops
+    assert not C(5).directed
     assert from_matrix([[0, 1], [1.0000001, 0]]).directed
 
 
 def test_bad_direction():
     for call in (
-        lambda: cycle(3).degrees("both"),
-        lambda: cycle(3).is_regular("up"),
-        lambda: cycle(3).matrix("laplacian", "sideways"),
-        lambda: cycle(3).eigenvalues("adjacency", "OUT"),
+        lambda: C(3).degrees("both"),
+        lambda: C(3).is_regular("up"),
+        lambda: C(3).matrix("laplacian", "sideways"),
+        lambda: C(3).eigenvalues("adjacency", "OUT"),
     ):
         with pytest.raises(InputError) as excinfo:
             call()
@@ -366,7 +369,7 @@ def test_transition_is_row_stochastic():
 
 
 def test_matrix_canonical_and_copy():
-    g = loops(-2, cycle(4))
+    g = loops(-2, C(4))
     lap = g.matrix("laplacian")
     assert lap.has_canonical_format
     # D - A with loops -2: degree 0 and diagonal 0 - (-2) = 2
@@ -379,18 +382,18 @@ def test_matrix_canonical_and_copy():
 
 @pytest.mark.parametrize("n", [3, 5, 6])
 def test_regular_closed_form_paths_match_numpy(n):
-    for g, a in ((cycle(n), dense_cycle(n)), (dicycle(n), dense_dicycle(n))):
+    for g, a in ((C(n), dense_cycle(n)), (dicycle(n), dense_dicycle(n))):
         for kind in ("laplacian", "signless", "transition"):
             ref = direct_matrix(a, kind)
             # source: numpy.linalg.eigvals on the directly built matrix
             assert same_multiset(g.eigenvalues(kind), np.linalg.eigvals(ref), tol=1e-12)
     ref = direct_matrix(dense_cycle(n), "normalized")
     # source: numpy.linalg.eigvalsh on the directly built I - D^-1/2 A D^-1/2
-    assert np.allclose(cycle(n).eigenvalues("normalized"), np.linalg.eigvalsh(ref))
+    assert np.allclose(C(n).eigenvalues("normalized"), np.linalg.eigvalsh(ref))
 
 
 def test_normalized_and_transition_of_irregular_graph():
-    g = star(3)
+    g = K(1, 3)
     a = dense_complete_bipartite(1, 3)
     for kind in ("normalized", "transition"):
         # source: numpy.linalg.eigvals on the directly built matrix
@@ -410,10 +413,10 @@ def test_transition_with_signed_degrees():
 
 def test_unknown_kind():
     with pytest.raises(InputError) as excinfo:
-        cycle(4).matrix("random-walk")
+        C(4).matrix("random-walk")
     assert_one_line_error(excinfo, "laplacian, signless, normalized, transition")
     with pytest.raises(InputError):
-        cycle(4).eigenvalues("spectral")
+        C(4).eigenvalues("spectral")
 
 
 def test_normalized_requires_undirected():
@@ -446,7 +449,7 @@ def test_transition_requires_nonzero_degrees():
 
 
 def test_eigenvalues_cached_and_copied():
-    g = path(5)
+    g = P(5)
     first = g.eigenvalues("laplacian")
     first[:] = 7.0
     second = g.eigenvalues("laplacian")
@@ -457,7 +460,7 @@ def test_eigenvalues_cached_and_copied():
 
 def test_laplacian_has_exact_zero():
     # source: the Laplacian of a connected graph has a simple eigenvalue 0 (from memory)
-    ev = path(6).eigenvalues("laplacian")
+    ev = P(6).eigenvalues("laplacian")
     assert ev[0] == 0.0 and ev[1] > 0
 
 
@@ -465,7 +468,7 @@ def test_laplacian_has_exact_zero():
 
 
 def test_factor_is_immutable():
-    g = cycle(5)
+    g = C(5)
     with pytest.raises(AttributeError):
         g.name = "other"
     with pytest.raises(AttributeError):
@@ -481,7 +484,7 @@ def test_factor_is_immutable():
 def test_factor_pickles():
     import pickle
 
-    g = scale(2, cycle(5))
+    g = scale(2, C(5))
     h = pickle.loads(pickle.dumps(g))
     assert h.name == g.name
     assert np.array_equal(h.adjacency.toarray(), g.adjacency.toarray())
@@ -489,7 +492,7 @@ def test_factor_pickles():
 
 
 def test_repr_mentions_name():
-    assert "cycle(6)" in repr(cycle(6))
+    assert "C(6)" in repr(C(6))
 
 
 # ------------------------------------------------------------------------ from_matrix
@@ -598,7 +601,7 @@ def test_from_array_protocol():
 
 
 def test_factor_returned_unchanged():
-    g = cycle(5)
+    g = C(5)
     assert from_matrix(g) is g
 
 
@@ -643,8 +646,8 @@ def test_bad_name():
 
 
 def test_scale():
-    g = scale(0.5, cycle(6))
-    assert g.name == "scale(0.5, cycle(6))"
+    g = scale(0.5, C(6))
+    assert g.name == "scale(0.5, C(6))"
     a = 0.5 * dense_cycle(6)
     assert np.array_equal(g.adjacency.toarray(), a)
     # source: numpy.linalg.eigvalsh on the explicitly built 0.5 * A
@@ -656,11 +659,11 @@ def test_scale():
 
 
 def test_scale_negative_and_zero():
-    g = scale(-2, star(3))
-    assert g.name == "scale(-2, star(3))"
+    g = scale(-2, K(1, 3))
+    assert g.name == "scale(-2, K(1, 3))"
     # source: numpy.linalg.eigvalsh on the explicitly built -2 * A
     assert np.allclose(g.eigenvalues(), np.linalg.eigvalsh(-2 * dense_complete_bipartite(1, 3)))
-    z = scale(0, cycle(5))
+    z = scale(0, C(5))
     assert z.adjacency.nnz == 0
     assert z.eigenvalues().tolist() == [0.0] * 5
 
@@ -673,8 +676,8 @@ def test_scale_of_plain_matrix_has_no_closed_form():
 
 
 def test_loops():
-    g = loops(1.5, path(4))
-    assert g.name == "loops(1.5, path(4))"
+    g = loops(1.5, P(4))
+    assert g.name == "loops(1.5, P(4))"
     a = dense_path(4) + 1.5 * np.eye(4)
     assert np.array_equal(g.adjacency.toarray(), a)
     assert g.has_loops
@@ -696,14 +699,14 @@ def test_loops_on_regular_closed_form():
 
 
 def test_loops_zero_has_no_loops():
-    assert not loops(0, cycle(4)).has_loops
+    assert not loops(0, C(4)).has_loops
 
 
 @pytest.mark.parametrize("bad", [float("nan"), float("inf"), 1j, "2", True, None])
 def test_scale_and_loops_bad_constant(bad):
     for fn in (scale, loops):
         with pytest.raises(InputError) as excinfo:
-            fn(bad, cycle(4))
+            fn(bad, C(4))
         assert_one_line_error(excinfo, "c must be")
 
 

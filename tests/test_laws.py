@@ -58,7 +58,7 @@ def test_bivariate_real_marginal():
     assert abs(b.cdf(0.5, 50.0) - 0.5) < 1e-6
 
 
-@pytest.mark.parametrize("factor,k", [("cycle(5)", 3), ("motif()", 2), ("path(4)", 3), ("star(3)", 4)])
+@pytest.mark.parametrize("factor,k", [("C(5)", 3), ("motif()", 2), ("P(4)", 3), ("K(1, 3)", 4)])
 def test_cartesian_law_moments_match_explicit_product(factor, k):
     q = _Query(f"cart({factor}^{k})", "adjacency", "law", None, None, "out")
     law = q.law().law if k > 1 else None
@@ -130,9 +130,9 @@ def test_product_law_signs_and_zero():
 
 def test_strong_power_is_shifted_law():
     # source: strong eigenvalues are (1 + l1)...(1 + lk) - 1 (DESIGN §2): cdf at x = P(S <= 1 + x);
-    # checked against the exact engine spectrum of strong(cycle(4)^6) (cross-checked with numpy
+    # checked against the exact engine spectrum of strong(C(4)^6) (cross-checked with numpy
     # in tests/test_engine.py)
-    expr = "strong(cycle(4)^6)"
+    expr = "strong(C(4)^6)"
     sp = ps.spectrum(expr).atoms
     vals = np.repeat(sp.values, sp.mult.astype(np.int64))
     for x in (-1.0, 0.0, 5.0, 200.0, 728.0):

@@ -12,7 +12,7 @@ from powerspec.algebra.engine import Leaf, Product
 from powerspec.algebra.grammar import parse
 from powerspec.algebra.kinds import Combination
 from powerspec.errors import InputError
-from powerspec.factors.core import from_matrix
+from powerspec.factors import from_matrix
 from powerspec.tiers.momentbounds import cdf_bounds, cdf_bounds_from_moments, recurrence
 from tests.reference import fold
 
@@ -53,8 +53,8 @@ def test_bounds_contain_exact_cdf_random_products(trial):
 
 
 def test_bounds_for_larger_power_are_informative():
-    # source: numpy eigvalsh of the explicit strong(path(3)^3) Laplacian (27 vertices)
-    node = parse("strong(path(3)^3)")
+    # source: numpy eigvalsh of the explicit strong(P(3)^3) Laplacian (27 vertices)
+    node = parse("strong(P(3)^3)")
     p3 = node.operands[0][0].factor.adjacency.toarray()
     adj = fold([p3, p3, p3], 1, 1)
     ev = np.linalg.eigvalsh(np.diag(adj.sum(axis=1)) - adj)
@@ -68,7 +68,7 @@ def test_bounds_for_larger_power_are_informative():
 
 def test_finite_support_collapses_to_exact():
     # source: Q_3 spectrum -3, -1 (x3), 1 (x3), 3 (closed form of the hypercube)
-    node = parse("cart(complete(2)^3)")
+    node = parse("cart(K(2)^3)")
     assert cdf_bounds_from_moments(node, "adjacency", 0.0)[:2] == (0.5, 0.5)
     assert cdf_bounds_from_moments(node, "adjacency", -1.0)[:2] == (0.5, 0.5)
     assert cdf_bounds_from_moments(node, "adjacency", -1.5)[:2] == (0.125, 0.125)

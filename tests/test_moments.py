@@ -13,7 +13,7 @@ from powerspec.algebra.grammar import parse
 from powerspec.algebra.kinds import Combination
 from powerspec.algebra.moments import trace_moments
 from powerspec.errors import InputError, NotExactError, SizeLimitError
-from powerspec.factors.core import from_matrix
+from powerspec.factors import from_matrix
 from powerspec.queries.moments import moment_answer
 from tests.reference import fold
 
@@ -53,7 +53,7 @@ def test_hypercube_closed_walks(k):
     # identity, i.e. each used coordinate appears an even number of times: either one
     # coordinate four times (k ways) or two distinct coordinates twice each (C(k,2) choices
     # times 4!/(2!2!) = 6 orders): k + 6 C(k,2) = 3k^2 - 2k per start vertex (derived here).
-    got = dict(trace_moments(parse(f"cart(complete(2)^{k})"), order=4))
+    got = dict(trace_moments(parse(f"cart(K(2)^{k})"), order=4))
     assert got[2] == k * 2**k
     assert got[4] == 2**k * (3 * k * k - 2 * k)
     assert got[1] == got[3] == 0  # bipartite: no odd closed walks
@@ -62,17 +62,17 @@ def test_hypercube_closed_walks(k):
 def test_hypercube_huge_k_per_vertex():
     # source: same derivation as above, per vertex: tr(A^4)/2^k = 3k^2 - 2k; tr(A^2)/2^k = k
     k = 10**9
-    got = dict(trace_moments(parse(f"cart(complete(2)^{k})"), order=4, per_vertex=True))
+    got = dict(trace_moments(parse(f"cart(K(2)^{k})"), order=4, per_vertex=True))
     assert got[2] == k and got[4] == 3 * k * k - 2 * k
     with pytest.raises(SizeLimitError):
-        trace_moments(parse(f"cart(complete(2)^{k})"), order=2)
+        trace_moments(parse(f"cart(K(2)^{k})"), order=2)
 
 
 @pytest.mark.parametrize("expr,mats,a,b", [
-    ("cart(path(3), cycle(4))", None, 1, 0),
-    ("strong(star(2)^2, path(2))", None, 1, 1),
-    ("direct(path(3)^3)", None, 0, 1),
-    ("mix(2, 0.5, path(3), star(2))", None, 2, 0.5),
+    ("cart(P(3), C(4))", None, 1, 0),
+    ("strong(K(1, 2)^2, P(2))", None, 1, 1),
+    ("direct(P(3)^3)", None, 0, 1),
+    ("mix(2, 0.5, P(3), K(1, 2))", None, 2, 0.5),
 ])
 def test_adjacency_moments_against_numpy(expr, mats, a, b):
     # source: numpy traces of the explicit Kronecker-built product (tests/reference.fold)
@@ -105,9 +105,9 @@ def test_nested_cartesian_inside_direct_laplacian():
 
 
 def test_direct_power_laplacian_and_in_degrees():
-    # source: numpy traces of the explicit direct(star(2)^3) Laplacian; in-degree Laplacian of a
+    # source: numpy traces of the explicit direct(K(1, 2)^3) Laplacian; in-degree Laplacian of a
     # directed factor product against column sums
-    node = parse("direct(star(2)^3)")
+    node = parse("direct(K(1, 2)^3)")
     s = node.leaves()[0].adjacency.toarray()
     adj = fold([s, s, s], 0, 1)
     _close(trace_moments(node, "laplacian", order=8), _numpy_traces(_kind_matrix(adj, "laplacian"), 8))
@@ -121,7 +121,7 @@ def test_direct_power_laplacian_and_in_degrees():
 
 def test_transition_and_normalized_direct_are_rational():
     # source: numpy traces of D^-1 A and I - D^-1/2 A D^-1/2 of the explicit direct product
-    node = parse("direct(star(3), path(3))")
+    node = parse("direct(K(1, 3), P(3))")
     f1, f2 = (f.adjacency.toarray() for f in node.leaves())
     adj = fold([f1, f2], 0, 1)
     d = adj.sum(axis=1)
@@ -135,17 +135,17 @@ def test_transition_and_normalized_direct_are_rational():
 
 def test_regular_shortcut_and_refusal():
     # source: numpy traces of the Cartesian transition matrix of regular factors (cycles)
-    node = parse("cart(cycle(3), cycle(4))")
+    node = parse("cart(C(3), C(4))")
     adj = fold([f.adjacency.toarray() for f in node.leaves()], 1, 0)
     _close(trace_moments(node, "transition", order=4), _numpy_traces(adj / 4.0, 4))
     with pytest.raises(NotExactError):
-        trace_moments(parse("cart(star(3), path(3))"), "transition", order=3)
+        trace_moments(parse("cart(K(1, 3), P(3))"), "transition", order=3)
     with pytest.raises(InputError):
-        trace_moments(parse("cart(path(3))"), "adjacency", order=0)
+        trace_moments(parse("cart(P(3))"), "adjacency", order=0)
 
 
 def test_moment_answer_json():
     # source: the hypercube closed form tr(A^2) = k 2^k (see above)
-    ans = moment_answer("cart(complete(2)^4)", order=2)
+    ans = moment_answer("cart(K(2)^4)", order=2)
     assert ans.query == "moments" and ans.moments == [(1, 0), (2, 4 * 16)]
     assert '"moments": [[1, 0], [2, 64]]' in ans.to_json()

@@ -16,15 +16,15 @@ def _explicit_laplacian(a, b, ca, cb, signless=False):
 
 
 CASES = [
-    ("direct(path(3), star(4))", "p3", "s4", 0.0, 1.0),
-    ("strong(path(3), star(3))", "p3", "s3", 1.0, 1.0),
-    ("direct(path(4), path(3))", "p4", "p3", 0.0, 1.0),
+    ("direct(P(3), K(1, 4))", "p3", "s4", 0.0, 1.0),
+    ("strong(P(3), K(1, 3))", "p3", "s3", 1.0, 1.0),
+    ("direct(P(4), P(3))", "p4", "p3", 0.0, 1.0),
 ]
 
 
 def _mats():
-    p = {n: ps.path(n).adjacency.toarray() for n in (3, 4)}
-    s = {n: ps.star(n).adjacency.toarray() for n in (3, 4)}
+    p = {n: ps.P(n).adjacency.toarray() for n in (3, 4)}
+    s = {n: ps.K(1, n).adjacency.toarray() for n in (3, 4)}
     return {"p3": p[3], "p4": p[4], "s3": s[3], "s4": s[4]}
 
 
@@ -55,14 +55,14 @@ def test_moment_fallback_bounds_hold(expr, fa, fb, ca, cb, kind):
 
 def test_fallback_not_used_for_adjacency_or_explicit_exact():
     with pytest.raises(ps.NotExactError):
-        ps.cdf("direct(path(3), star(4))", 1.0, "laplacian", method="exact")
+        ps.cdf("direct(P(3), K(1, 4))", 1.0, "laplacian", method="exact")
 
 
 def test_one_irregular_factor_distribution_tiers_hold():
     # Past the exact tier (small limit), the bracket/law tiers have no rule for this
     # Laplacian; the answer must still contain the exact one (moment bounds).
     # source: the exact tier with the default limit (block construction, checked against numpy)
-    e = "direct(path(3), cart(cycle(5)^3))"
+    e = "direct(P(3), cart(C(5)^3))"
     for x in (3.0, 7.5, 11.0):
         exact = ps.cdf(e, x, "laplacian")
         bounded = ps.cdf(e, x, "laplacian", limit=20)

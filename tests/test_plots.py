@@ -10,9 +10,9 @@ pytest.importorskip("matplotlib")
 
 
 @pytest.mark.parametrize("expr,suffix,magic", [
-    ("cart(complete(2)^40)", "png", b"\x89PNG"),
+    ("cart(K(2)^40)", "png", b"\x89PNG"),
     ("cart(motif()^3)", "svg", b"<?xml"),
-    ("direct(path(3)^3)", "pdf", b"%PDF"),
+    ("direct(P(3)^3)", "pdf", b"%PDF"),
 ])
 def test_plot_writes_file(tmp_path, capsys, expr, suffix, magic):
     out = tmp_path / f"s.{suffix}"
@@ -30,9 +30,9 @@ def test_plot_beyond_enumeration_uses_moments_and_extremes(tmp_path, capsys):
 
 
 @pytest.mark.parametrize("argv,phrase", [
-    (["plot", "cart(cycle(4)^2)", "-o", "x.gif"], ".png, .pdf or .svg"),
+    (["plot", "cart(C(4)^2)", "-o", "x.gif"], ".png, .pdf or .svg"),
     (["plot", "cart(dicycle(4)^2)", "-o", "x.png"], "complex"),
-    (["plot", "cart(cycle(4)^2)", "-o", "/no/such/dir/x.png"], "does not exist"),
+    (["plot", "cart(C(4)^2)", "-o", "/no/such/dir/x.png"], "does not exist"),
 ])
 def test_plot_errors(argv, phrase, capsys):
     assert main(argv) == 2

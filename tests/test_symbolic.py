@@ -43,7 +43,7 @@ def power_symbol(fam):
 def test_hypercube_family_closed_form():
     # source: Q_k has eigenvalues k - 2j with multiplicity C(k, j)
     # (Brouwer & Haemers, Spectra of Graphs, §1.4.6 -- from memory)
-    fam = S.symbolic_family("cart(complete(2)^k)")
+    fam = S.symbolic_family("cart(K(2)^k)")
     k = power_symbol(fam)
     (j,) = fam.indices
     assert sympy.expand(fam.eigenvalue - (k - 2 * j)) == 0
@@ -54,10 +54,10 @@ def test_hypercube_family_closed_form():
 @pytest.mark.parametrize("kk", range(1, 13))
 def test_hypercube_expansion_matches_engine(kk):
     # source: the exact engine (powerspec.planner.spectrum) and the closed form k - 2j, C(k, j)
-    fam = S.symbolic_family("cart(complete(2)^k)")
+    fam = S.symbolic_family("cart(K(2)^k)")
     got = fam.expand(k=kk)
     assert got == [(sympy.Integer(kk - 2 * j), math.comb(kk, j)) for j in range(kk + 1)]
-    assert_same_multiset(got, engine_atoms(f"cart(complete(2)^{kk})"))
+    assert_same_multiset(got, engine_atoms(f"cart(K(2)^{kk})"))
 
 
 # ------------------------------------------------------------------ Hamming
@@ -65,7 +65,7 @@ def test_hypercube_expansion_matches_engine(kk):
 def test_hamming_family_closed_form_and_engine(q):
     # source: H(k, q) has eigenvalues (q-1)k - qj with multiplicity C(k, j)(q-1)^j
     # (Brouwer & Haemers, Spectra of Graphs, Hamming graphs -- from memory)
-    fam = S.symbolic_family(f"cart(complete({q})^k)")
+    fam = S.symbolic_family(f"cart(K({q})^k)")
     k = power_symbol(fam)
     (j,) = fam.indices
     assert sympy.expand(fam.eigenvalue - ((q - 1) * k - q * j)) == 0
@@ -75,18 +75,18 @@ def test_hamming_family_closed_form_and_engine(q):
         want = [((q - 1) * kk - q * jj, math.comb(kk, jj) * (q - 1) ** jj) for jj in range(kk + 1)]
         assert got == [(sympy.Integer(v), m) for v, m in want]
         # source: the exact engine
-        assert_same_multiset(got, engine_atoms(f"cart(complete({q})^{kk})"))
+        assert_same_multiset(got, engine_atoms(f"cart(K({q})^{kk})"))
 
 
 @pytest.mark.parametrize("text,kk", [
-    ("cart(cycle(5)^k)", 4),  # irrational eigenvalues (golden ratio), r = 3
-    ("cart(path(3)^k)", 5),  # sqrt(2), and merging of equal sums
-    ("direct(path(3)^k)", 4),  # multiplicative, zero eigenvalue
-    ("strong(complete(3)^k)", 6),
-    ("mix(1, 0.5, star(3)^k)", 3),
-    ("mix(0, 2, cycle(4)^k)", 3),
-    ("cart(complete(2)^k, path(3)^n)", (3, 2)),  # two symbolic powers
-    ("direct(cycle(3)^k, path(2))", 3),
+    ("cart(C(5)^k)", 4),  # irrational eigenvalues (golden ratio), r = 3
+    ("cart(P(3)^k)", 5),  # sqrt(2), and merging of equal sums
+    ("direct(P(3)^k)", 4),  # multiplicative, zero eigenvalue
+    ("strong(K(3)^k)", 6),
+    ("mix(1, 0.5, K(1, 3)^k)", 3),
+    ("mix(0, 2, C(4)^k)", 3),
+    ("cart(K(2)^k, P(3)^n)", (3, 2)),  # two symbolic powers
+    ("direct(C(3)^k, P(2))", 3),
 ])
 def test_expansion_matches_engine(text, kk):
     # source: the exact engine on the same expression with the powers substituted
@@ -102,10 +102,10 @@ def test_expansion_matches_engine(text, kk):
 
 
 @pytest.mark.parametrize("text,kind,kk", [
-    ("cart(cycle(4)^k)", "laplacian", 3),
-    ("direct(path(3)^k)", "transition", 3),
-    ("strong(cycle(4)^k)", "laplacian", 2),  # regular only: d - lambda with d = 3^k - 1
-    ("direct(complete(3)^k)", "normalized", 3),
+    ("cart(C(4)^k)", "laplacian", 3),
+    ("direct(P(3)^k)", "transition", 3),
+    ("strong(C(4)^k)", "laplacian", 2),  # regular only: d - lambda with d = 3^k - 1
+    ("direct(K(3)^k)", "normalized", 3),
 ])
 def test_other_matrix_kinds_match_engine(text, kind, kk):
     # source: the exact engine for the same matrix kind
@@ -117,7 +117,7 @@ def test_other_matrix_kinds_match_engine(text, kind, kk):
 def test_cycle_eigenvalues_are_the_textbook_cosines():
     # source: C_n has eigenvalues 2 cos(2 pi j / n) (Brouwer & Haemers §1.4.3 -- from memory)
     for n in (5, 6, 8):
-        got = S.symbolic_factor(planner.resolve(f"cycle({n})")).eigenvalues()
+        got = S.symbolic_factor(planner.resolve(f"C({n})")).eigenvalues()
         want = [(2 * math.cos(2 * math.pi * j / n), 1) for j in range(n)]
         merged = {}
         for v, m in want:
@@ -169,24 +169,24 @@ def test_symbolic_loop_weight_power():
     # source: the exact engine with the loop weight substituted (c = 1/2), and
     # loops(c, K2) has eigenvalues c + 1, c - 1 (J - I shifted by c, from memory)
     c = sympy.Symbol("c")
-    g = S.SymbolicFactor(sympy.Matrix([[c, 1], [1, c]]), "loops(c, complete(2))")
+    g = S.SymbolicFactor(sympy.Matrix([[c, 1], [1, c]]), "loops(c, K(2))")
     assert {v for v, _ in g.eigenvalues()} == {c + 1, c - 1}
     k = sympy.Symbol("k", integer=True, positive=True)
     fam = S.spectrum_family(S.symbolic_product("cart", (g, k)))
     got = [(v.subs(c, sympy.Rational(1, 2)), m) for v, m in fam.expand(k=3)]
-    assert_same_multiset(got, engine_atoms("cart(loops(0.5, complete(2))^3)"))
+    assert_same_multiset(got, engine_atoms("cart(loops(0.5, K(2))^3)"))
 
 
 def test_numeric_factor_converts_exactly():
     # source: the decimal typed in the expression, 0.1 = 1/10 (exact rational arithmetic)
-    g = S.symbolic_factor(planner.resolve("scale(0.1, complete(2))"))
+    g = S.symbolic_factor(planner.resolve("scale(0.1, K(2))"))
     assert set(g.matrix) == {0, sympy.Rational(1, 10)}
     assert g.eigenvalues() == [(sympy.Rational(1, 10), 1), (sympy.Rational(-1, 10), 1)]
 
 
 # -------------------------------------------------------------------- moments
-MOMENT_CASES = ["cart(cycle(4)^k)", "cart(path(3)^k)", "direct(path(3)^k)",
-                "strong(complete(3)^k)", "mix(1, 0.5, star(3)^k)", "cart(complete(3)^k, path(2))"]
+MOMENT_CASES = ["cart(C(4)^k)", "cart(P(3)^k)", "direct(P(3)^k)",
+                "strong(K(3)^k)", "mix(1, 0.5, K(1, 3)^k)", "cart(K(3)^k, P(2))"]
 
 
 @pytest.mark.parametrize("text", MOMENT_CASES)
@@ -207,7 +207,7 @@ def test_moment_polynomials_match_engine(text):
 def test_cartesian_moments_are_n_power_k_times_polynomial():
     # source: the exponential formula sum_p tr(M^p) t^p/p! = (tr e^{tA})^k, so tr(M^p)/n^k is
     # a polynomial of degree <= p in k (Stanley, Enumerative Combinatorics 2, §5.1 -- from memory)
-    node = S.symbolic_expression("cart(path(3)^k)")
+    node = S.symbolic_expression("cart(P(3)^k)")
     (k,) = node.powers()
     for p, t in enumerate(S.traces(node, "adjacency", 4)):
         poly = sympy.Poly(sympy.expand(sympy.powsimp(t / 3**k, force=True)), k)
@@ -215,10 +215,10 @@ def test_cartesian_moments_are_n_power_k_times_polynomial():
 
 
 @pytest.mark.parametrize("text,kind,kk", [
-    ("cart(path(3)^k, cycle(4))", "adjacency", 2),
-    ("cart(path(3)^k, cycle(4))", "laplacian", 2),
-    ("strong(path(3)^k)", "adjacency", 3),
-    ("mix(2, 1, path(2)^3)", "adjacency", None),
+    ("cart(P(3)^k, C(4))", "adjacency", 2),
+    ("cart(P(3)^k, C(4))", "laplacian", 2),
+    ("strong(P(3)^k)", "adjacency", 3),
+    ("mix(2, 1, P(2)^3)", "adjacency", None),
 ])
 def test_moments_match_numpy_traces(text, kind, kk):
     node = S.symbolic_expression(text)
@@ -242,9 +242,9 @@ def test_moments_match_numpy_traces(text, kind, kk):
 
 
 # --------------------------------------------------------------- closed forms
-@pytest.mark.parametrize("text", ["cart(cycle(5)^k)", "cart(star(3)^k)", "direct(path(3)^k)",
-                                  "direct(cycle(3)^k)", "strong(path(3)^k)", "mix(1, 0.5, star(3)^k)",
-                                  "mix(0, 2, path(4)^k)", "cart(complete(2)^k, star(3)^n)",
+@pytest.mark.parametrize("text", ["cart(C(5)^k)", "cart(K(1, 3)^k)", "direct(P(3)^k)",
+                                  "direct(C(3)^k)", "strong(P(3)^k)", "mix(1, 0.5, K(1, 3)^k)",
+                                  "mix(0, 2, P(4)^k)", "cart(K(2)^k, K(1, 3)^n)",
                                   "direct(dicycle(3)^k)"])
 def test_spectral_radius_matches_engine(text):
     forms, _ = S.closed_forms(S.symbolic_expression(text))
@@ -257,8 +257,8 @@ def test_spectral_radius_matches_engine(text):
         assert float(sympy.N(rho.subs(subs), 30)) == pytest.approx(want, rel=1e-12)
 
 
-@pytest.mark.parametrize("text", ["cart(cycle(5)^k)", "cart(path(4)^k)", "strong(path(3)^k)",
-                                  "mix(1, 0.5, star(3)^k)", "cart(complete(3)^k, path(3))"])
+@pytest.mark.parametrize("text", ["cart(C(5)^k)", "cart(P(4)^k)", "strong(P(3)^k)",
+                                  "mix(1, 0.5, K(1, 3)^k)", "cart(K(3)^k, P(3))"])
 def test_largest_and_smallest_match_engine(text):
     forms, _ = S.closed_forms(S.symbolic_expression(text))
     for kk in (1, 2, 4):
@@ -275,21 +275,21 @@ def test_largest_and_smallest_match_engine(text):
 
 
 def test_mean_variance_estrada_heat_trace():
-    node = S.symbolic_expression("cart(path(3)^k)")
+    node = S.symbolic_expression("cart(P(3)^k)")
     forms, _ = S.closed_forms(node)
     k = next(iter(node.powers()))
     # source: the CLT scaling in DESIGN §2 -- the Cartesian power's eigenvalue distribution is the
-    # k-fold convolution, so the variance is k times path(3)'s (eigenvalues 0, +-sqrt 2: 4/3)
+    # k-fold convolution, so the variance is k times P(3)'s (eigenvalues 0, +-sqrt 2: 4/3)
     assert sympy.simplify(forms["variance"] - sympy.Rational(4, 3) * k) == 0
     assert forms["mean"] == 0
     lap, _ = S.closed_forms(node, "laplacian")
     t = next(s for s in lap["heat_trace"].free_symbols if s.name == "t")
     for kk in (1, 3, 6):
-        atoms = engine_atoms(f"cart(path(3)^{kk})")
+        atoms = engine_atoms(f"cart(P(3)^{kk})")
         # source: the exact engine's spectrum, sum of m e^lambda
         want = sum(m * math.exp(v) for v, m in atoms)
         assert float(forms["estrada_index"].subs(k, kk)) == pytest.approx(want, rel=1e-12)
-        latoms = engine_atoms(f"cart(path(3)^{kk})", "laplacian")
+        latoms = engine_atoms(f"cart(P(3)^{kk})", "laplacian")
         want = sum(m * math.exp(-0.3 * v) for v, m in latoms)
         assert float(lap["heat_trace"].subs({k: kk, t: 0.3})) == pytest.approx(want, rel=1e-12)
 
@@ -301,7 +301,7 @@ def kirchhoff(adj):
 
 @pytest.mark.parametrize("kk", [1, 2, 3, 4])
 def test_hypercube_spanning_trees(kk):
-    forms, _ = S.closed_forms(S.symbolic_expression("cart(complete(2)^k)"))
+    forms, _ = S.closed_forms(S.symbolic_expression("cart(K(2)^k)"))
     tau = forms["spanning_trees"]
     (k,) = [s for s in tau.free_symbols if s.name == "k"]
     j = sympy.Symbol("j", integer=True, nonnegative=True)
@@ -319,7 +319,7 @@ def test_hypercube_spanning_trees(kk):
 
 def test_torus_spanning_trees_three_indices():
     # source: matrix-tree theorem via numpy.linalg.det on C4 x C4 and C4^3 built with kron
-    forms, _ = S.closed_forms(S.symbolic_expression("cart(cycle(4)^k)"))
+    forms, _ = S.closed_forms(S.symbolic_expression("cart(C(4)^k)"))
     tau = forms["spanning_trees"]
     (k,) = [s for s in tau.free_symbols if s.name == "k"]
     c4 = np.roll(np.eye(4), 1, axis=1) + np.roll(np.eye(4), -1, axis=1)
@@ -375,12 +375,12 @@ def test_size_guard():
 
 
 @pytest.mark.parametrize("text,exc", [
-    ("cart(complete(2)^j)", ExpressionError),  # index name is reserved
-    ("cart(complete(2)^pi)", ExpressionError),  # a sympy constant, would not round-trip
-    ("scale(2, complete(2)^k)", ExpressionError),
-    ("cart(direct(path(2)^k)^2)", SymbolicError),  # nested symbolic power
-    ("mix(2, 1, path(2)^k)", SymbolicError),  # left fold
-    ("cart(complete(2)", ExpressionError),
+    ("cart(K(2)^j)", ExpressionError),  # index name is reserved
+    ("cart(K(2)^pi)", ExpressionError),  # a sympy constant, would not round-trip
+    ("scale(2, K(2)^k)", ExpressionError),
+    ("cart(direct(P(2)^k)^2)", SymbolicError),  # nested symbolic power
+    ("mix(2, 1, P(2)^k)", SymbolicError),  # left fold
+    ("cart(K(2)", ExpressionError),
 ])
 def test_bad_expressions(text, exc):
     with pytest.raises(exc):
@@ -389,13 +389,13 @@ def test_bad_expressions(text, exc):
 
 def test_not_exact_kind_is_refused():
     with pytest.raises(NotExactError, match="not exact"):
-        S.symbolic_family("direct(path(3)^k)", "laplacian")
+        S.symbolic_family("direct(P(3)^k)", "laplacian")
     with pytest.raises(InputError):
-        S.symbolic_report("cdf", "cart(complete(2)^k)")
+        S.symbolic_report("cdf", "cart(K(2)^k)")
 
 
 def test_expand_needs_the_power():
-    fam = S.symbolic_family("cart(complete(2)^k)")
+    fam = S.symbolic_family("cart(K(2)^k)")
     with pytest.raises(InputError, match="needs a value"):
         fam.expand()
     with pytest.raises(InputError):
@@ -404,7 +404,7 @@ def test_expand_needs_the_power():
 
 # ------------------------------------------------------------------- output
 @pytest.mark.parametrize("command", ["spectrum", "top", "moments", "invariants"])
-@pytest.mark.parametrize("text", ["cart(complete(2)^k)", "cart(cycle(5)^k)", "strong(complete(3)^k)"])
+@pytest.mark.parametrize("text", ["cart(K(2)^k)", "cart(C(5)^k)", "strong(K(3)^k)"])
 def test_report_strings_round_trip(command, text):
     report = S.symbolic_report(command, text, latex=True)
     assert {"expression", "matrix", "order", "method", "symbolic"} <= set(report)
@@ -432,9 +432,9 @@ def test_report_strings_round_trip(command, text):
 
 
 def test_report_hypercube_keys():
-    r = S.symbolic_report("spectrum", "cart(complete(2)^k)")
+    r = S.symbolic_report("spectrum", "cart(K(2)^k)")
     assert r["order"] == "2**k"
     assert r["symbolic"]["eigenvalue"] == "k - 2*j"
     assert r["symbolic"]["multiplicity"] == "binomial(k, j)"
-    inv = S.symbolic_report("invariants", "cart(complete(2)^k)")["symbolic"]
+    inv = S.symbolic_report("invariants", "cart(K(2)^k)")["symbolic"]
     assert sympy.sympify(inv["spectral_radius"]) == sympy.Symbol("k")

@@ -3,8 +3,8 @@
 An expression is a tree of :class:`Leaf` (a factor graph) and
 :class:`Product` nodes.  A product node holds a
 :class:`~powerspec.products.Combination` and a tuple of operands, each an
-(expression, copies) pair: ``cart(cycle(10)^6)`` is one product node with the
-single operand (cycle(10), 6).
+(expression, copies) pair: ``cart(C(10)^6)`` is one product node with the
+single operand (C(10), 6).
 
 :class:`Engine` computes the exact spectrum of any node for any matrix kind
 by the rules of :mod:`powerspec.products`: associative combinations are
@@ -32,7 +32,7 @@ from powerspec.algebra.kinds import (
 )
 from powerspec.algebra.powers import check_pairs, composition_count, outer, power
 from powerspec.errors import InputError, NotExactError, SizeLimitError
-from powerspec.factors.core import Factor
+from powerspec.factors import Factor
 from powerspec.numbers.counts import BigCount, power_product
 from powerspec.numbers.counts import log2 as count_log2
 from powerspec.spectra.measures import LINEAR_MAX, Spectrum, mult_array, outer_mult, polar_add, polar_mul
@@ -130,8 +130,8 @@ class Engine:
     result, ``limit * PAIR_FACTOR`` the pairs formed in one step.  Results are
     cached per (node, kind), so a repeated sub-expression costs once.
 
-    >>> from powerspec.factors.core import complete
-    >>> q3 = Product(Combination(1.0, 0.0), ((Leaf(complete(2)), 3),))
+    >>> from powerspec.factors import K
+    >>> q3 = Product(Combination(1.0, 0.0), ((Leaf(K(2)), 3),))
     >>> Engine().spectrum(q3).atoms()
     [(-3.0, 1), (-1.0, 3), (1.0, 3), (3.0, 1)]
     """

@@ -51,7 +51,7 @@ def extremes(engine: Engine, node: Node, kind: str, m: int, bottom: bool = False
     description of how they were obtained.
 
     >>> from powerspec.algebra.grammar import parse
-    >>> sp, how = extremes(Engine(), parse("cart(complete(2)^1000000000)"), "adjacency", 2)
+    >>> sp, how = extremes(Engine(), parse("cart(K(2)^1000000000)"), "adjacency", 2)
     >>> sp.atoms()
     [(999999998.0, 1000000000), (1000000000.0, 1)]
     """

@@ -10,8 +10,8 @@ Grammar (DESIGN §4), parsed by a small recursive-descent parser (no eval)::
 
 Product functions -- ``cart``, ``direct``, ``strong`` and ``mix(a, b, ...)``
 -- take one or more graph operands; inside them ``G^k`` means k copies of G.
-Factor functions build leaves: ``path(n)``, ``cycle(n)``, ``complete(n)``,
-``star(n)``, ``complete_bipartite(m, n)``, ``dicycle(n)``, ``motif()``,
+Factor functions build leaves: ``P(n)``, ``C(n)``, ``K(n)``,
+``K(1, n)``, ``K(m, n)``, ``dicycle(n)``, ``motif()``,
 ``load("file")`` (``load("file", "directed")`` for a directed edge list),
 ``scale(c, G)`` and ``loops(c, G)``.  Every error names the column.
 """
@@ -25,7 +25,9 @@ from pathlib import Path
 from powerspec.algebra.engine import Leaf, Node, Product
 from powerspec.algebra.kinds import PRODUCT_KINDS, Combination
 from powerspec.errors import ExpressionError, PowerspecError
-from powerspec.factors import core as factors
+from powerspec.factors import families
+from powerspec.factors.factor import Factor
+from powerspec.factors.readers import load
 
 # ---------------------------------------------------------------- syntax
 
@@ -122,7 +124,7 @@ class _Parser:
     def expression(self):
         tok = self.peek()
         if tok[0] != "name":
-            self.take("name", what="a function such as cart(...) or cycle(5)")
+            self.take("name", what="a function such as cart(...) or C(5)")
         node = self.call()
         if self.peek()[0] == "punct" and self.peek()[1] == "^":
             raise ExpressionError(
@@ -194,24 +196,23 @@ def _number(text: str, col: int) -> float | int:
 def parse_syntax(text: str) -> Call:
     """Parse expression text into a syntax tree (no evaluation).
 
-    >>> parse_syntax("cart(cycle(4)^2)").name
+    >>> parse_syntax("cart(C(4)^2)").name
     'cart'
     """
     if not isinstance(text, str) or not text.strip():
-        raise ExpressionError("the expression is empty; try e.g. 'cart(cycle(10)^6)'", 1)
+        raise ExpressionError("the expression is empty; try e.g. 'cart(C(10)^6)'", 1)
     return _Parser(text).expression()
 
 
 # -------------------------------------------------------------- building
 
 _FACTOR_FUNCS = {
-    "path": (factors.path, ("n",)),
-    "cycle": (factors.cycle, ("n",)),
-    "complete": (factors.complete, ("n",)),
-    "star": (factors.star, ("n",)),
-    "complete_bipartite": (factors.complete_bipartite, ("m", "n")),
-    "dicycle": (factors.dicycle, ("n",)),
-    "motif": (factors.motif, ()),
+    "P": (families.P, ("n",)),
+    "C": (families.C, ("n",)),
+    "K": (families.K, ("m", "n")),
+    "J": (families.J, ("n",)),
+    "dicycle": (families.dicycle, ("n",)),
+    "motif": (families.motif, ()),
 }
 _PRODUCT_FUNCS = (*PRODUCT_KINDS, "mix")
 FUNCTIONS = (*_PRODUCT_FUNCS, *_FACTOR_FUNCS, "load", "scale", "loops")
@@ -224,10 +225,10 @@ def parse(text: str, base_dir: str | Path | None = None) -> Node:
     ``base_dir`` resolves relative ``load("...")`` paths (default: the
     current directory).
 
-    >>> parse("cart(complete(2)^3)").order
+    >>> parse("cart(K(2)^3)").order
     8
-    >>> parse("direct(path(3)^2, cycle(5))").label()
-    'direct(path(3)^2, cycle(5))'
+    >>> parse("direct(P(3)^2, C(5))").label()
+    'direct(P(3)^2, C(5))'
     """
     tree = parse_syntax(text)
     return _build(tree, Path(base_dir) if base_dir else None)
@@ -241,18 +242,20 @@ def _build(t, base: Path | None) -> Node:
             t.col,
         )
     if not isinstance(t, Call):
-        raise ExpressionError("expected a graph (a function call such as cycle(5))", t.col)
+        raise ExpressionError("expected a graph (a function call such as C(5))", t.col)
     name = t.name
     try:
         if name in _PRODUCT_FUNCS:
             return _build_product(t, base)
         if name in _FACTOR_FUNCS:
             fn, params = _FACTOR_FUNCS[name]
+            if name == "K" and len(t.args) == 1:
+                params = ("n",)
             _arity(t, len(params), params)
             ints = [_integer(a, f"{name}() argument {p}") for a, p in zip(t.args, params, strict=True)]
             f = fn(*ints)
             if name == "motif":  # echo the expression as written
-                f = factors.Factor(f.adjacency, "motif()", f.closed_form)
+                f = Factor(f.adjacency, "motif()", f.closed_form)
             return Leaf(f)
         if name == "load":
             return _build_load(t, base)
@@ -262,7 +265,7 @@ def _build(t, base: Path | None) -> Node:
             g = _build(t.args[1], base)
             if not isinstance(g, Leaf):
                 raise ExpressionError(f"{name}() takes a factor, not a product", t.args[1].col)
-            return Leaf(getattr(factors, name)(c, g.factor))
+            return Leaf(getattr(families, name)(c, g.factor))
     except ExpressionError:
         raise
     except PowerspecError as exc:
@@ -322,10 +325,10 @@ def _build_load(t: Call, base: Path | None) -> Leaf:
     path = Path(t.args[0].value)
     if base is not None and not path.is_absolute():
         path = base / path
-    f = factors.load(path, directed=directed)
+    f = load(path, directed=directed)
     # Keep the name as written so the expression echoes back unchanged.
     shown = f'load("{t.args[0].value}"' + (', "directed")' if directed else ")")
-    return Leaf(factors.Factor(f.adjacency, shown, f.closed_form))
+    return Leaf(Factor(f.adjacency, shown, f.closed_form))
 
 
 def _arity(t: Call, n: int, params) -> None:

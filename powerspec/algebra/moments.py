@@ -34,7 +34,7 @@ multiplicative over Kronecker products, which keeps numbers small):
   its traces are rational too.
 
 >>> from powerspec.algebra.grammar import parse
->>> trace_moments(parse("cart(complete(2)^3)"), order=4)
+>>> trace_moments(parse("cart(K(2)^3)"), order=4)
 [(1, 0), (2, 24), (3, 0), (4, 168)]
 """
 
@@ -50,7 +50,7 @@ import numpy as np
 from powerspec.algebra.engine import Leaf, Node, Product
 from powerspec.algebra.kinds import MATRIX_KINDS, MATRIX_RULES, Combination
 from powerspec.errors import InputError, NotExactError, SizeLimitError
-from powerspec.factors.core import Factor
+from powerspec.factors import Factor
 from powerspec.numbers.counts import BigCount
 from powerspec.numbers.counts import log2 as count_log2
 
@@ -148,8 +148,8 @@ def exact_adjacency(factor: Factor) -> list[list[Fraction]]:
 def exact_degrees(factor: Factor, direction: str = "out") -> list[Fraction]:
     """Exact weighted degrees: row sums ('out') or column sums ('in') of the exact entries.
 
-    >>> from powerspec.factors.core import star
-    >>> [int(d) for d in exact_degrees(star(2))]
+    >>> from powerspec.factors import K
+    >>> [int(d) for d in exact_degrees(K(1, 2))]
     [2, 1, 1]
     """
     a = exact_adjacency(factor)
@@ -650,9 +650,9 @@ def trace_moments(node: Node, kind: str = "adjacency", order: int = 8, *, direct
     normalized/transition kinds of non-regular non-direct products.
 
     >>> from powerspec.algebra.grammar import parse
-    >>> trace_moments(parse("direct(star(2), path(2))"), "laplacian", order=2)
+    >>> trace_moments(parse("direct(K(1, 2), P(2))"), "laplacian", order=2)
     [(1, 8), (2, 20)]
-    >>> trace_moments(parse("cart(complete(2)^1000000000)"), order=2, per_vertex=True)
+    >>> trace_moments(parse("cart(K(2)^1000000000)"), order=2, per_vertex=True)
     [(1, 0), (2, 1000000000)]
     """
     _check_order(order)

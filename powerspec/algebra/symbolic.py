@@ -8,7 +8,7 @@ Three layers, each exact (sympy arithmetic, no floats):
   multiplicities from the characteristic polynomial.
 * Symbolic expression trees -- :func:`symbolic_product` in Python, or
   :func:`symbolic_expression` for the expression language with a bare name
-  as power, e.g. ``cart(complete(2)^k)``.
+  as power, e.g. ``cart(K(2)^k)``.
 * :class:`SpectrumFamily` -- the spectrum of a product whose powers may be
   symbols, as one eigenvalue expression in *composition indices* with its
   multiplicity, and :func:`closed_forms` -- spectral radius, moments, mean,
@@ -35,7 +35,7 @@ descending order for adjacency and transition matrices and ascending for
 laplacian, signless and normalized ones (so the base eigenvalue of a
 composition is the largest adjacency / the zero Laplacian eigenvalue).
 
->>> fam = symbolic_family("cart(complete(2)^k)")
+>>> fam = symbolic_family("cart(K(2)^k)")
 >>> fam.eigenvalue, fam.multiplicity
 (-2*j + k, binomial(k, j))
 >>> fam.expand(k=3)
@@ -59,7 +59,7 @@ from powerspec.algebra import grammar as expressions
 from powerspec.algebra.engine import Leaf, Product
 from powerspec.algebra.kinds import MATRIX_RULES, NON_EXACT_REASON, PRODUCT_KINDS, Combination
 from powerspec.errors import ExpressionError, InputError, NotExactError, SizeLimitError, SymbolicError
-from powerspec.factors.core import MATRIX_KINDS, Factor, from_matrix
+from powerspec.factors import MATRIX_KINDS, Factor, from_matrix
 
 __all__ = [
     "MAX_EXACT_ORDER",
@@ -146,7 +146,7 @@ class SymbolicFactor:
     exact distinct eigenvalues of a matrix kind with integer multiplicities.
 
     >>> c = sympy.Symbol("c")
-    >>> g = SymbolicFactor(sympy.Matrix([[c, 1], [1, c]]), "loops(c, complete(2))")
+    >>> g = SymbolicFactor(sympy.Matrix([[c, 1], [1, c]]), "loops(c, K(2))")
     >>> g.eigenvalues()
     [(c + 1, 1), (c - 1, 1)]
     """
@@ -340,7 +340,7 @@ def symbolic_factor(obj: Any, name: str | None = None) -> SymbolicFactor:
     shortest round-trip decimal (0.1 -> 1/10, which is what was typed; it differs from
     the stored double by under one ulp).
 
-    >>> symbolic_factor(expressions.parse("cycle(3)")).eigenvalues()
+    >>> symbolic_factor(expressions.parse("C(3)")).eigenvalues()
     [(2, 1), (-1, 2)]
     """
     if isinstance(obj, SymbolicFactor):
@@ -390,7 +390,7 @@ class SymProduct:
     name: str = ""
 
     def label(self) -> str:
-        """Expression text, e.g. ``cart(complete(2)^k)``."""
+        """Expression text, e.g. ``cart(K(2)^k)``."""
         head = self.name or _comb_name(self.a, self.b)
         parts = [n.label() + ("" if k == 1 else f"^{k}") for n, k in self.operands]
         if head.startswith("mix("):
@@ -442,9 +442,9 @@ def symbolic_product(product: str | tuple, *operands: Any) -> SymProduct:
     int or a sympy Symbol.
 
     >>> k = sympy.Symbol("k", integer=True, positive=True)
-    >>> from powerspec.factors.core import complete
-    >>> symbolic_product("cart", (complete(2), k)).label()
-    'cart(complete(2)^k)'
+    >>> from powerspec.factors import K
+    >>> symbolic_product("cart", (K(2), k)).label()
+    'cart(K(2)^k)'
     """
     if isinstance(product, str):
         if product not in PRODUCT_KINDS:
@@ -523,8 +523,8 @@ def symbolic_expression(text: str) -> SymNode:
 
     Power names become sympy Symbols with integer=True, positive=True.
 
-    >>> symbolic_expression("strong(complete(3)^k, path(2))").label()
-    'strong(complete(3)^k, path(2))'
+    >>> symbolic_expression("strong(K(3)^k, P(2))").label()
+    'strong(K(3)^k, P(2))'
     """
     return _walk(expressions.parse_syntax(text))
 
@@ -895,7 +895,7 @@ def _fold_values(node: SymProduct, a, b, kind) -> list[tuple[sympy.Expr, int]]:
 def finite_spectrum(node: SymNode, kind: str = "adjacency") -> list[tuple[sympy.Expr, int]]:
     """Exact merged spectrum of a node without symbolic powers: [(value, multiplicity)].
 
-    >>> finite_spectrum(symbolic_expression("cart(path(2)^2)"))
+    >>> finite_spectrum(symbolic_expression("cart(P(2)^2)"))
     [(2, 1), (0, 2), (-2, 1)]
     """
     if isinstance(node, SymLeaf):
@@ -1115,7 +1115,7 @@ def closed_forms(node: SymNode, kind: str = "adjacency", max_power: int = 4
     connected undirected factors (matrix-tree theorem: prod of nonzero Laplacian
     eigenvalues / N).
 
-    >>> forms, _ = closed_forms(symbolic_expression("cart(complete(2)^k)"))
+    >>> forms, _ = closed_forms(symbolic_expression("cart(K(2)^k)"))
     >>> forms["spectral_radius"], forms["variance"]
     (k, k)
     """
@@ -1179,7 +1179,7 @@ def evaluate(expr: sympy.Expr, **values: Any) -> sympy.Expr:
     sympy's ``doit`` leaves nested ranges such as (j2, 0, k - j1) unevaluated; this
     loops over them once the powers are integers.
 
-    >>> forms, _ = closed_forms(symbolic_expression("cart(cycle(4)^k)"))
+    >>> forms, _ = closed_forms(symbolic_expression("cart(C(4)^k)"))
     >>> evaluate(forms["spanning_trees"], k=2)
     42467328
     """
@@ -1222,7 +1222,7 @@ def symbolic_report(command: str, expression_text: str, *, matrix: str = "adjace
     assumptions); ``latex`` (when asked) maps the same names to LaTeX; ``notes`` lists
     assumptions and omitted closed forms.  ``max_power`` is the largest moment order.
 
-    >>> r = symbolic_report("spectrum", "cart(complete(2)^k)")
+    >>> r = symbolic_report("spectrum", "cart(K(2)^k)")
     >>> r["order"], r["symbolic"]["eigenvalue"], r["symbolic"]["multiplicity"]
     ('2**k', 'k - 2*j', 'binomial(k, j)')
     """
@@ -1286,7 +1286,7 @@ def _all_symbols(node: SymNode, fam: SpectrumFamily) -> set:
 def symbolic_text(report: dict, latex: bool = False) -> str:
     """Readable print of :func:`symbolic_report`: sympy-readable text, or LaTeX with latex=True.
 
-    >>> print(symbolic_text(symbolic_report("spectrum", "cart(complete(2)^k)")).splitlines()[6])
+    >>> print(symbolic_text(symbolic_report("spectrum", "cart(K(2)^k)")).splitlines()[6])
       eigenvalue   = k - 2*j
     """
     lines = [f"powerspec {report.get('query', '')} (symbolic)".replace("  ", " ")]

@@ -3,9 +3,9 @@
 A fictional machine-room team is choosing the interconnect for a new hall
 of about four million compute nodes.  Each candidate is a graph product:
 
-* a 4-D torus ``cart(cycle(45)^4)`` (4,100,625 nodes),
-* the 22-cube ``cart(complete(2)^22)`` (4,194,304 nodes),
-* a Hamming-type product ``cart(complete(4)^11)`` (4,194,304 nodes).
+* a 4-D torus ``cart(C(45)^4)`` (4,100,625 nodes),
+* the 22-cube ``cart(K(2)^22)`` (4,194,304 nodes),
+* a Hamming-type product ``cart(K(4)^11)`` (4,194,304 nodes).
 
 For each the demo gives, exactly, the number of distinct eigenvalues, the
 spectral radius (which sets the epidemic threshold of a worm spreading over
@@ -22,9 +22,9 @@ from powerspec.answers.answer import _text_int, _text_value
 from powerspec.queries import planner
 
 CANDIDATES = (
-    ("4-D torus", "cart(cycle(45)^4)"),
-    ("22-cube", "cart(complete(2)^22)"),
-    ("Hamming-type", "cart(complete(4)^11)"),
+    ("4-D torus", "cart(C(45)^4)"),
+    ("22-cube", "cart(K(2)^22)"),
+    ("Hamming-type", "cart(K(4)^11)"),
 )
 
 
@@ -54,7 +54,7 @@ def run_demo() -> str:
         out.append(f"      method: {ans.method}")
     out.append("")
     out.append("  Past enumeration, distribution questions come with rigorous bounds:")
-    for expr, x in (("cart(motif()^200)", 0.0), ("cart(cycle(45)^1000)", 10.0)):
+    for expr, x in (("cart(motif()^200)", 0.0), ("cart(C(45)^1000)", 10.0)):
         a = planner.cdf(expr, x)
         out.append(f"    share of eigenvalues of {expr} <= {x:g}: {_text_value(a.estimate)} "
                    f"in [{_text_value(a.lower)}, {_text_value(a.upper)}]")

@@ -1,6 +1,6 @@
 """Exact vertex counts that may be far too large to expand into decimal digits.
 
-The order of ``cart(complete(3)^1000000000)`` is 3^(10^9), an integer of
+The order of ``cart(K(3)^1000000000)`` is 3^(10^9), an integer of
 477 million digits: exact, but not something to compute digit by digit.
 :func:`power_product` returns a Python ``int`` when the count has at most
 :data:`EXPAND_BITS` bits and a :class:`BigCount` -- the exact product of

@@ -6,13 +6,13 @@ from pathlib import Path
 
 from powerspec.algebra.engine import Leaf, Node
 from powerspec.algebra.grammar import parse
-from powerspec.factors.core import Factor, from_matrix
+from powerspec.factors import Factor, from_matrix
 
 
 def resolve(expr, base_dir: str | Path | None = None) -> Node:
     """An expression node from text, a node, a Factor or any matrix-like object.
 
-    >>> resolve("cart(cycle(4)^2)").order
+    >>> resolve("cart(C(4)^2)").order
     16
     """
     if isinstance(expr, str):

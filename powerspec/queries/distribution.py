@@ -29,10 +29,10 @@ Conventions (the user-visible contract):
 * Laplacian-type kinds of direct/strong products of non-regular factors are
   not exact functions of the factor spectra: NotExactError.
 
->>> a = cdf("cart(complete(2)^10)", 0)
+>>> a = cdf("cart(K(2)^10)", 0)
 >>> a.estimate, a.lower, a.upper, a.method.split(":")[0]
 (0.623046875, 0.623046875, 0.623046875, 'exact')
->>> count("cart(complete(2)^10)", -2, 2).estimate   # C(10,4)+C(10,5)+C(10,6)
+>>> count("cart(K(2)^10)", -2, 2).estimate   # C(10,4)+C(10,5)+C(10,6)
 672
 """
 
@@ -670,7 +670,7 @@ def cdf(expr, x, matrix: str = "adjacency", *, method: str = "auto", tol: float 
     error bound used.  ``method`` is auto | exact | bracket | law; ``tol`` the
     wanted width upper - lower.
 
-    >>> a = cdf("cart(complete(2)^1000000000)", 0.0, method="law")
+    >>> a = cdf("cart(K(2)^1000000000)", 0.0, method="law")
     >>> a.method.split(":")[0], a.lower <= 0.5 <= a.upper, a.upper - a.lower < 1e-4
     ('law', True, True)
     """
@@ -728,7 +728,7 @@ def count(expr, a, b, matrix: str = "adjacency", *, method: str = "auto", tol: f
     (counts are integers), the estimate a float; mpmath numbers when the
     order is astronomically large.  ``tol`` is a width on the fraction.
 
-    >>> count("direct(star(3)^3)", 0, 0).estimate   # 4^3 - 2^3 zero eigenvalues
+    >>> count("direct(K(1, 3)^3)", 0, 0).estimate   # 4^3 - 2^3 zero eigenvalues
     56
     """
     q = _Query(expr, matrix, method, tol, limit, degrees)
@@ -762,7 +762,7 @@ def quantile(expr, p, matrix: str = "adjacency", *, method: str = "auto", tol: f
     upper/lower CDF bounds); values beyond the double range are mpmath numbers.
     ``tol`` is a width on the CDF, as for :func:`cdf`.
 
-    >>> quantile("cart(complete(2)^10)", 0.5).estimate
+    >>> quantile("cart(K(2)^10)", 0.5).estimate
     0.0
     """
     if isinstance(p, bool) or not isinstance(p, (int, float)) or not 0 < float(p) < 1:

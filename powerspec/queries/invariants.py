@@ -21,7 +21,7 @@ Sources of each number (in order of preference):
   (L = D - A with the exact degree range and adjacency extremes) for the
   algebraic connectivity of non-factoring Laplacians.
 
->>> ans = invariants("cart(complete(2)^3)")
+>>> ans = invariants("cart(K(2)^3)")
 >>> ans.invariants["spectral_radius"]["value"], ans.invariants["nullity"]["value"]
 (3.0, 0)
 """
@@ -566,7 +566,7 @@ def invariants(expr, *, limit: int | None = None, degrees: str = "out", t: float
     ``limit`` caps the distinct eigenvalues enumerated for exact sums
     (default :data:`EXACT_LIMIT`); ``t`` is the heat-kernel time.
 
-    >>> inv = invariants("cart(cycle(4)^2)").invariants
+    >>> inv = invariants("cart(C(4)^2)").invariants
     >>> inv["algebraic_connectivity"]["value"], inv["components"]["value"]
     (2.0, 1)
     """

@@ -20,7 +20,7 @@ def moment_answer(expr, order: int = 8, matrix: str = "adjacency", *, degrees: s
     Integral values stay Python ints; non-integral ones are Fractions (written
     as numbers in JSON).
 
-    >>> moment_answer("cart(cycle(4)^2)", order=2).moments
+    >>> moment_answer("cart(C(4)^2)", order=2).moments
     [(1, 0), (2, 64)]
     """
     node = resolve(expr)

@@ -35,7 +35,7 @@ def spectrum(expr, matrix: str = "adjacency", *, limit: int | None = None,
              degrees: str = "out") -> Answer:
     """The full exact spectrum, or SizeLimitError saying what it would need.
 
-    >>> spectrum("cart(complete(2)^3)").atoms.atoms()
+    >>> spectrum("cart(K(2)^3)").atoms.atoms()
     [(-3.0, 1), (-1.0, 3), (1.0, 3), (3.0, 1)]
     """
     node = resolve(expr)
@@ -67,7 +67,7 @@ def top(expr, m: int = 5, matrix: str = "adjacency", *, bottom: bool = False,
         limit: int | None = None, degrees: str = "out") -> Answer:
     """The m largest (or smallest) distinct eigenvalues with exact multiplicities, any power.
 
-    >>> top("cart(cycle(5)^1000)", m=1).atoms.atoms()
+    >>> top("cart(C(5)^1000)", m=1).atoms.atoms()
     [(2000.0, 1)]
     """
     if not isinstance(m, int) or isinstance(m, bool) or m < 1:
@@ -112,7 +112,7 @@ def cdf(expr, x: float, matrix: str = "adjacency", *, method: str = "auto", tol:
     Laplacian-type spectra of non-regular direct/strong products, which do not
     factor, get Chebyshev-Markov-Stieltjes bounds from their exact moments.
 
-    >>> a = cdf("cart(complete(2)^3)", 0.0)
+    >>> a = cdf("cart(K(2)^3)", 0.0)
     >>> (a.lower, a.upper)
     (0.5, 0.5)
     """
@@ -132,7 +132,7 @@ def count(expr, a: float, b: float, matrix: str = "adjacency", *, method: str = 
           tol: float | None = None, limit: int | None = None, degrees: str = "out") -> Answer:
     """Number of eigenvalues in [a, b] with rigorous bounds, out of the exact order.
 
-    >>> count("cart(complete(2)^4)", -0.5, 0.5).estimate    # C(4, 2) = 6 eigenvalues at 0
+    >>> count("cart(K(2)^4)", -0.5, 0.5).estimate    # C(4, 2) = 6 eigenvalues at 0
     6
     """
     node = resolve(expr)
@@ -164,7 +164,7 @@ def quantile(expr, q: float, matrix: str = "adjacency", *, method: str = "auto",
              tol: float | None = None, limit: int | None = None, degrees: str = "out") -> Answer:
     """The q-quantile of the eigenvalue distribution with rigorous bounds.
 
-    >>> quantile("cart(complete(2)^4)", 0.5).estimate
+    >>> quantile("cart(K(2)^4)", 0.5).estimate
     0.0
     """
     node = resolve(expr)

@@ -274,7 +274,7 @@ def cdf_bounds_from_moments(node, kind: str, x, *, order: int = DEFAULT_ORDER,
     moment used (an even number 2n gives an (n+1)-node quadrature).
 
     >>> from powerspec.algebra.grammar import parse
-    >>> lo, hi, how = cdf_bounds_from_moments(parse("cart(complete(2)^3)"), "adjacency", 0.0)
+    >>> lo, hi, how = cdf_bounds_from_moments(parse("cart(K(2)^3)"), "adjacency", 0.0)
     >>> lo, hi                                    # Q_3: eigenvalues -3, -1^3, 1^3, 3
     (0.5, 0.5)
     """

@@ -1,0 +1,340 @@
+"""Factor graphs: build, read and validate them, and give their matrices and spectra.
+
+A *factor* is a real square weighted adjacency matrix ``A`` (n x n, float64,
+any real weights, signed or not, self-loops allowed).  Conventions used
+throughout powerspec:
+
+* **Directed** means "the adjacency matrix is not exactly symmetric".  An
+  entry ``A[u, v]`` is the weight of the arc ``u -> v``.
+* **Degrees** are weighted (strengths).  The *out*-degree of ``u`` is the row
+  sum ``sum_v A[u, v]``, the *in*-degree the column sum.  Out-degree is the
+  default everywhere.  A self-loop of weight ``c`` adds ``c`` **once** to the
+  degree (it is the diagonal entry ``A[u, u]``), not twice.
+* Matrix kinds (:data:`MATRIX_KINDS`), with ``D`` the diagonal matrix of the
+  chosen degrees: ``adjacency`` A; ``laplacian`` D - A; ``signless`` D + A;
+  ``normalized`` I - D^-1/2 A D^-1/2 (undirected factors with positive
+  degrees only); ``transition`` D^-1 A (row-stochastic for non-negative
+  weights and out-degrees).
+* Eigenvalue multisets are numpy arrays of length n sorted ascending by
+  (real part, imaginary part): float64 when the spectrum is real, complex128
+  otherwise.  Values within ``1e-12 * max(1, max|eigenvalue|)`` of an integer
+  are snapped to that integer (see :meth:`Factor.eigenvalues`).
+
+A :class:`Factor` is immutable: every accessor returns a fresh copy.
+
+>>> from powerspec.factors.families import C, K, P, dicycle, loops
+>>> g = C(4)
+>>> g.n, g.directed, g.degrees().tolist()
+(4, False, [2.0, 2.0, 2.0, 2.0])
+>>> g.eigenvalues("laplacian").tolist()
+[0.0, 2.0, 2.0, 4.0]
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import scipy.sparse as sp
+
+from powerspec.errors import InputError
+from powerspec.factors.matrix import (
+    DIRECTIONS,
+    MATRIX_KINDS,
+    SNAP_TOLERANCE,
+    _canonical,
+    _check_direction,
+    _check_kind,
+    _snap,
+    _to_csr,
+)
+
+__all__ = ["DIRECTIONS", "MATRIX_KINDS", "SNAP_TOLERANCE", "Factor", "from_matrix"]
+
+
+# ---------------------------------------------------------------------------- Factor
+
+
+class Factor:
+    """An immutable factor graph: a real square weighted adjacency matrix.
+
+    Build one with a family (``P``, ``C``, ``K``, ... in
+    :mod:`powerspec.factors.families`), with :func:`from_matrix`, or with
+    :func:`load`; ``Factor(matrix, name, closed_form=None)`` accepts whatever
+    :func:`from_matrix` accepts (except a Factor) and validates it the same way.
+
+    Attributes (read-only; each access returns a fresh copy):
+
+    * ``adjacency`` -- canonical ``scipy.sparse.csr_array``, float64, n x n
+      (duplicates summed, explicit zeros removed, indices sorted);
+    * ``name`` -- display label such as ``"C(10)"``;
+    * ``closed_form`` -- adjacency eigenvalues from a family's closed form
+      (snapped and sorted like :meth:`eigenvalues`), or ``None``.
+
+    >>> g = from_matrix([[0, 1], [0, 0]], name="arc")
+    >>> g.n, g.directed, g.has_loops
+    (2, True, False)
+    >>> g.adjacency.toarray().tolist()
+    [[0.0, 1.0], [0.0, 0.0]]
+    """
+
+    __slots__ = ("_adj", "_name", "_closed_form", "_cache")
+
+    def __init__(self, adjacency: Any, name: str | None = None,
+                 closed_form: Any | None = None):
+        if isinstance(adjacency, Factor):
+            raise InputError("Factor() got a Factor: use from_matrix(), which returns it as is")
+        adj = _to_csr(adjacency)
+        n = adj.shape[0]
+        if name is None:
+            name = f"matrix({n}x{n})"
+        if not isinstance(name, str):
+            raise InputError(f"a factor name must be a string, got {type(name).__name__}")
+        if closed_form is not None:
+            cf = np.asarray(closed_form)
+            if cf.ndim != 1 or cf.shape[0] != n or cf.dtype.kind not in "biufc":
+                raise InputError(
+                    f"closed_form for {name} must be a 1-D numeric array of length {n}, "
+                    f"got shape {cf.shape} and dtype {cf.dtype}"
+                )
+            if not np.all(np.isfinite(cf)):
+                raise InputError(f"closed_form for {name} has non-finite values")
+            closed_form = _snap(cf)
+            closed_form.flags.writeable = False
+        object.__setattr__(self, "_adj", adj)
+        object.__setattr__(self, "_name", name)
+        object.__setattr__(self, "_closed_form", closed_form)
+        object.__setattr__(self, "_cache", {})
+
+    def __setattr__(self, key: str, value: Any) -> None:
+        raise AttributeError(f"Factor is immutable: cannot set {key!r}")
+
+    def __delattr__(self, key: str) -> None:
+        raise AttributeError(f"Factor is immutable: cannot delete {key!r}")
+
+    def __reduce__(self):
+        return (Factor, (self._adj, self._name, self._closed_form))
+
+    def __repr__(self) -> str:
+        return f"Factor({self._name!r}, n={self.n})"
+
+    # -- basic attributes -------------------------------------------------------------
+
+    @property
+    def adjacency(self) -> sp.csr_array:
+        """A copy of the canonical float64 adjacency matrix (csr_array)."""
+        return self._adj.copy()
+
+    @property
+    def name(self) -> str:
+        """The display label, e.g. ``"C(10)"``."""
+        return self._name
+
+    @property
+    def closed_form(self) -> np.ndarray | None:
+        """A copy of the closed-form adjacency eigenvalues, or None if there is none."""
+        return None if self._closed_form is None else self._closed_form.copy()
+
+    @property
+    def n(self) -> int:
+        """Number of vertices."""
+        return int(self._adj.shape[0])
+
+    @property
+    def directed(self) -> bool:
+        """True when the adjacency matrix is not exactly symmetric."""
+        if "directed" not in self._cache:
+            diff = self._adj - self._adj.T
+            self._cache["directed"] = bool(sp.csr_array(diff).count_nonzero())
+        return self._cache["directed"]
+
+    @property
+    def has_loops(self) -> bool:
+        """True when some diagonal entry (self-loop weight) is non-zero."""
+        return bool(np.any(self._adj.diagonal() != 0))
+
+    # -- degrees ----------------------------------------------------------------------
+
+    def degrees(self, direction: str = "out") -> np.ndarray:
+        """Weighted degrees: row sums (``"out"``) or column sums (``"in"``), float64.
+
+        A self-loop of weight ``c`` adds ``c`` once.  Exact up to float64 summation.
+
+        >>> from powerspec.factors.families import C, K, P, dicycle, loops
+        >>> loops(1, P(2)).degrees().tolist()
+        [2.0, 2.0]
+        >>> from powerspec.factors.families import C, K, P, dicycle, loops
+        >>> dicycle(3).degrees("in").tolist()
+        [1.0, 1.0, 1.0]
+        """
+        direction = _check_direction(direction)
+        axis = 1 if direction == "out" else 0
+        return np.asarray(self._adj.sum(axis=axis), dtype=np.float64).ravel()
+
+    def is_regular(self, direction: str = "out") -> bool:
+        """True when all degrees agree within ``1e-12 * max(1, max|degree|)``.
+
+        >>> from powerspec.factors.families import C, K, P, dicycle, loops
+        >>> C(5).is_regular(), K(1, 3).is_regular()
+        (True, False)
+        """
+        d = self.degrees(direction)
+        tol = SNAP_TOLERANCE * max(1.0, float(np.max(np.abs(d))))
+        return bool(np.max(d) - np.min(d) <= tol)
+
+    # -- matrices ---------------------------------------------------------------------
+
+    def matrix(self, kind: str = "adjacency", direction: str = "out") -> sp.csr_array:
+        """The factor's matrix of the given kind, as a canonical float64 csr_array.
+
+        ``D`` is ``diag(degrees(direction))``.  ``adjacency``: A; ``laplacian``:
+        D - A; ``signless``: D + A; ``normalized``: I - D^-1/2 A D^-1/2
+        (undirected, all degrees > 0); ``transition``: D^-1 A (all degrees
+        non-zero).  Entries are exact up to float64 rounding of the products.
+
+        >>> from powerspec.factors.families import C, K, P, dicycle, loops
+        >>> P(3).matrix("laplacian").toarray().tolist()
+        [[1.0, -1.0, 0.0], [-1.0, 2.0, -1.0], [0.0, -1.0, 1.0]]
+        """
+        kind = _check_kind(kind)
+        direction = _check_direction(direction)
+        key = ("matrix", kind, self._effective_direction(kind, direction))
+        if key not in self._cache:
+            self._cache[key] = self._build_matrix(kind, direction)
+        return self._cache[key].copy()
+
+    def _effective_direction(self, kind: str, direction: str) -> str:
+        if kind == "adjacency" or not self.directed:
+            return "out"
+        return direction
+
+    def _positive_degree_scaling(self) -> np.ndarray:
+        """1/sqrt(d) for the normalized matrix; InputError unless undirected, d > 0."""
+        if self.directed:
+            raise InputError(
+                f"the normalized Laplacian needs an undirected factor, but {self._name} is "
+                "directed: use 'laplacian' or 'transition'"
+            )
+        d = self.degrees()
+        bad = int(np.count_nonzero(d <= 0))
+        if bad:
+            raise InputError(
+                f"the normalized Laplacian needs every degree > 0, but {bad} vertices of "
+                f"{self._name} have degree <= 0: use 'laplacian' instead"
+            )
+        return 1.0 / np.sqrt(d)
+
+    def _inverse_degrees(self, direction: str) -> np.ndarray:
+        d = self.degrees(direction)
+        bad = int(np.count_nonzero(d == 0))
+        if bad:
+            raise InputError(
+                f"the transition matrix needs every {direction}-degree non-zero, but {bad} "
+                f"vertices of {self._name} have {direction}-degree 0: use 'laplacian' instead"
+            )
+        return 1.0 / d
+
+    def _build_matrix(self, kind: str, direction: str) -> sp.csr_array:
+        a = self._adj
+        n = self.n
+        if kind == "adjacency":
+            return _canonical(a)
+        if kind in ("laplacian", "signless"):
+            dmat = sp.diags_array(self.degrees(direction), format="csr")
+            return _canonical(dmat - a if kind == "laplacian" else dmat + a)
+        if kind == "normalized":
+            s = sp.diags_array(self._positive_degree_scaling(), format="csr")
+            return _canonical(sp.eye_array(n, format="csr") - s @ a @ s)
+        inv = sp.diags_array(self._inverse_degrees(direction), format="csr")
+        return _canonical(inv @ a)
+
+    # -- eigenvalues ------------------------------------------------------------------
+
+    def eigenvalues(self, kind: str = "adjacency", direction: str = "out") -> np.ndarray:
+        """The eigenvalue multiset of ``matrix(kind, direction)``.
+
+        Returns an array of length n sorted ascending by (real, imag): float64
+        when the spectrum is real, complex128 otherwise.
+
+        How it is obtained: for ``adjacency`` the family's closed form when
+        there is one; for the other kinds of a regular factor (degree d) with
+        a closed form, d - lambda, d + lambda, 1 - lambda/d, lambda/d.
+        Otherwise numerically on the dense matrix: ``numpy.linalg.eigvalsh``
+        for symmetric matrices (``transition`` and ``normalized`` of an
+        undirected factor with positive degrees go through the symmetric
+        D^-1/2 A D^-1/2), ``numpy.linalg.eigvals`` otherwise, with the usual
+        backward-stable accuracy (about 1e-15 * ||M|| for symmetric matrices;
+        defective eigenvalues of non-symmetric ones can be much less accurate).
+
+        Snapping: a real or imaginary part within ``1e-12 * max(1, s)`` of an
+        integer, s = max|eigenvalue|, is replaced by that integer exactly; an
+        array whose imaginary parts all snap to 0 is returned real.  Results
+        are cached per (kind, direction); a fresh copy is returned.
+
+        >>> from powerspec.factors.families import C, K, P, dicycle, loops
+        >>> C(4).eigenvalues().tolist()
+        [-2.0, 0.0, 0.0, 2.0]
+        >>> from powerspec.factors.families import C, K, P, dicycle, loops
+        >>> dicycle(4).eigenvalues().tolist()
+        [(-1+0j), -1j, 1j, (1+0j)]
+        """
+        kind = _check_kind(kind)
+        direction = _check_direction(direction)
+        key = ("eigenvalues", kind, self._effective_direction(kind, direction))
+        if key not in self._cache:
+            values = self._compute_eigenvalues(kind, direction)
+            values.flags.writeable = False
+            self._cache[key] = values
+        return self._cache[key].copy()
+
+    def _compute_eigenvalues(self, kind: str, direction: str) -> np.ndarray:
+        cf = self._closed_form
+        if cf is not None:
+            if kind == "adjacency":
+                return cf.copy()
+            if self.is_regular(direction):
+                d = float(np.mean(self.degrees(direction)))
+                if kind == "laplacian":
+                    return _snap(d - cf)
+                if kind == "signless":
+                    return _snap(d + cf)
+                if kind == "transition" and d != 0:
+                    return _snap(cf / d)
+                if kind == "normalized" and d > 0 and not self.directed:
+                    return _snap(1.0 - cf / d)
+        if not self.directed and kind in ("transition", "normalized"):
+            if kind == "normalized" or np.all(self.degrees() > 0):
+                s = self._positive_degree_scaling()
+                dense = self._adj.toarray() * s[:, None] * s[None, :]
+                mu = np.linalg.eigvalsh(dense)
+                return _snap(mu if kind == "transition" else 1.0 - mu)
+        dense = self.matrix(kind, direction).toarray()
+        if np.array_equal(dense, dense.T):
+            return _snap(np.linalg.eigvalsh(dense))
+        return _snap(np.linalg.eigvals(dense))
+
+
+# ------------------------------------------------------------------------ from_matrix
+
+
+def from_matrix(obj: Any, name: str | None = None) -> Factor:
+    """Make a :class:`Factor` from a matrix-like object.
+
+    Accepts 2-D numpy arrays and nested lists of numbers (bool, int, float;
+    complex only with all imaginary parts zero), any scipy.sparse array or
+    matrix, a sympy Matrix with numeric entries, an object with a
+    ``powerspec_sparse()`` method returning a scipy sparse array, or any
+    object supporting ``__array__``.  A Factor is returned unchanged.
+
+    Returns a Factor whose adjacency holds the entries converted to float64
+    (exact for integers up to 2**53).  Raises InputError for: not 2-D,
+    non-square, empty, non-numeric, complex, non-finite entries, or a sympy
+    Matrix with free symbols.  The default name is ``"matrix(NxN)"``.
+
+    >>> g = from_matrix([[0, 2], [2, 0]], name="edge")
+    >>> g.name, g.eigenvalues().tolist()
+    ('edge', [-2.0, 2.0])
+    """
+    if isinstance(obj, Factor):
+        return obj
+    return Factor(obj, name)
