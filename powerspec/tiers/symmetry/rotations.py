@@ -179,21 +179,37 @@ class _BlockEig:
         self.e_norm = up(math.hypot(fro_up(er), fro_up(ei)) + e_fl + dk * math.sqrt(1 + self.delta))
         self.z_fro = math.hypot(fro_up(self.zr), fro_up(self.zi))
 
+
+class _SizeGroup:
+    """The blocks of one size b in one plane, stacked for batched products."""
+
+    __slots__ = ("cols", "zr", "zi", "m", "delta", "e_norm", "z_fro")
+
+    def __init__(self, cols: np.ndarray, eigs: list[_BlockEig]):
+        self.cols = cols
+        self.zr = np.stack([e.zr for e in eigs])
+        self.zi = np.stack([e.zi for e in eigs])
+        self.m = np.stack([e.m for e in eigs])
+        self.delta = np.array([e.delta for e in eigs])
+        self.e_norm = np.array([e.e_norm for e in eigs])
+        self.z_fro = np.array([e.z_fro for e in eigs])
+
     def exp(self, cos_tab: np.ndarray, sin_tab: np.ndarray, phi: float) -> tuple[np.ndarray, float]:
-        """(R, η): R ≈ exp(φ K) of this block and ||R - exp(φ K)||_2 <= η."""
+        """(R stack, η): each R[g] ≈ exp(φ K) of block g, and max_g ||R[g] - exp(φ K_g)||_2 <= η."""
         m = self.m
         am = np.abs(m)
-        fr = cos_tab[am]
-        fi = -np.sign(m) * sin_tab[am]  # Φ = exp(-i φ m) = cos(m φ) - i sin(m φ)
+        fr = cos_tab[am][:, None, :]
+        fi = (-np.sign(m) * sin_tab[am])[:, None, :]  # Φ = exp(-i φ m) = cos(m φ) - i sin(m φ)
         wr = self.zr * fr - self.zi * fi
         wi = self.zr * fi + self.zi * fr
-        r, e_mm = split_matmul(np.hstack([wr, wi]), np.hstack([self.zr, self.zi]).T)
+        z = np.concatenate([self.zr, self.zi], axis=2)
+        r, e_mm = split_matmul(np.concatenate([wr, wi], axis=2), z.transpose(0, 2, 1))
         d = self.delta
-        if not d < 0.5:
+        if not np.all(d < 0.5):
             return r, math.inf
-        eta = (1 + d) * d / (1 - d) + abs(phi) * self.e_norm * math.sqrt(1 + d) / (1 - d)
-        eta += (1 + d) * 3 * U + 2 * gamma(3) * self.z_fro * math.sqrt(1 + d) + e_mm
-        return r, up(eta)
+        eta = (1 + d) * d / (1 - d) + abs(phi) * self.e_norm * np.sqrt(1 + d) / (1 - d)
+        eta += (1 + d) * 3 * U + 2 * gamma(3) * self.z_fro * np.sqrt(1 + d)
+        return r, up(float(np.max(eta)) + e_mm)
 
 
 class RotationCache:
@@ -201,23 +217,40 @@ class RotationCache:
 
     def __init__(self) -> None:
         self._eig: dict[tuple, _BlockEig] = {}
+        self._groups: dict[tuple, list[_SizeGroup]] = {}
 
-    def block(self, module: GTModule, p: int, g: int) -> _BlockEig:
-        """The cached decomposition of block g of plane p of ``module``."""
+    def _block(self, module: GTModule, p: int, g: int) -> _BlockEig:
         pb = module.plane_blocks(p)
         key = pb.keys[g]
         hit = self._eig.get(key)
         if hit is None:
             idx = pb.groups[g]
             t, s, v = module.lowering(p)
-            pos = {int(a): i for i, a in enumerate(idx)}
+            pos = np.full(module.dim, -1, dtype=np.int64)
+            pos[idx] = np.arange(len(idx))
+            inside = (pos[t] >= 0) & (pos[s] >= 0)
             b = len(idx)
             f = np.zeros((b, b))
-            for tt, ss, vv in zip(t.tolist(), s.tolist(), v.tolist(), strict=True):
-                if tt in pos and ss in pos:
-                    f[pos[tt], pos[ss]] = vv
+            f[pos[t[inside]], pos[s[inside]]] = v[inside]
             hit = _BlockEig(f - f.T, module.n)
             self._eig[key] = hit
+        return hit
+
+    def groups(self, module: GTModule, p: int) -> list[_SizeGroup]:
+        """The non-trivial blocks of plane p of ``module``, grouped by size."""
+        gkey = (module.shape, module.n, p)
+        hit = self._groups.get(gkey)
+        if hit is None:
+            pb = module.plane_blocks(p)
+            by_size: dict[int, list[int]] = {}
+            for g, idx in enumerate(pb.groups):
+                if len(idx) > 1:  # K vanishes on a one-pattern block: the image is exactly 1
+                    by_size.setdefault(len(idx), []).append(g)
+            hit = []
+            for gs in by_size.values():
+                cols = np.concatenate([pb.groups[g] for g in gs])
+                hit.append(_SizeGroup(cols, [self._block(module, p, g) for g in gs]))
+            self._groups[gkey] = hit
         return hit
 
 
@@ -227,26 +260,24 @@ _DEFAULT_CACHE = RotationCache()
 def rotation_image(
     module: GTModule, p: int, phi: float, cache: RotationCache | None = None
 ) -> tuple[list[tuple[np.ndarray, np.ndarray]], float]:
-    """ρ(R(p, φ)) as a list of (pattern indices, block) pairs (1 x 1 identity blocks omitted) and η.
+    """ρ(R(p, φ)) as (columns, block stack) pairs, one per block size (1 x 1 identities omitted), and η.
 
-    η bounds the 2-norm distance to the exact image.
+    ``columns`` lists the pattern indices of the stacked blocks in order (block g
+    occupies ``columns[g*b:(g+1)*b]``); η bounds the 2-norm distance to the exact image.
 
-    >>> blocks, eta = rotation_image(GTModule((1,), 2), 1, 0.3)
-    >>> (idx, r), = blocks
-    >>> full = np.zeros((2, 2)); full[np.ix_(idx, idx)] = r
+    >>> groups, eta = rotation_image(GTModule((1,), 2), 1, 0.3)
+    >>> (cols, r), = groups
+    >>> full = np.zeros((2, 2)); full[np.ix_(cols, cols)] = r[0]
     >>> bool(np.allclose(full, rotation_matrix(2, 1, 0.3), atol=1e-15)), eta < 1e-14
     (True, True)
     """
     cache = cache or _DEFAULT_CACHE
-    pb = module.plane_blocks(p)
     kmax = int(sum(module.shape))
     cos_tab, sin_tab = angle_table(phi, kmax)
     out, eta = [], 0.0
-    for g, idx in enumerate(pb.groups):
-        if len(idx) == 1:
-            continue  # K vanishes on a one-pattern block: the image is exactly 1
-        r, e = cache.block(module, p, g).exp(cos_tab, sin_tab, phi)
-        out.append((idx, r))
+    for grp in cache.groups(module, p):
+        r, e = grp.exp(cos_tab, sin_tab, phi)
+        out.append((grp.cols, r))
         eta = max(eta, e)
     return out, eta
 
@@ -264,16 +295,19 @@ def orthogonal_image(
     u = np.eye(d)
     eps = 0.0
     for j, (p, phi) in enumerate(rots):
-        blocks, eta = rotation_image(module, p, phi, cache)
+        groups, eta = rotation_image(module, p, phi, cache)
         if j == 0:
-            for idx, r in blocks:
-                u[np.ix_(idx, idx)] = r  # u was the identity: placing the blocks is exact
+            for cols, r in groups:
+                idx = cols.reshape(r.shape[0], r.shape[1])
+                u[idx[:, :, None], idx[:, None, :]] = r  # u was the identity: placing blocks is exact
             eps = eta
             continue
         rnd2 = 0.0
-        for idx, r in blocks:
-            cols, e = split_matmul(u[:, idx], r)
-            u[:, idx] = cols
+        for cols, r in groups:
+            nblk, b = r.shape[0], r.shape[1]
+            x = u[:, cols].reshape(d, nblk, b).transpose(1, 0, 2)
+            prod, e = split_matmul(x, r)
+            u[:, cols] = prod.transpose(1, 0, 2).reshape(d, nblk * b)
             rnd2 += e * e
         eps = up(eps * (1 + eta) + eta + math.sqrt(rnd2) * (1 + 4 * U))
     w = module.weights
