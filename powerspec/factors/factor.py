@@ -15,10 +15,10 @@ throughout powerspec:
   ``normalized`` I - D^-1/2 A D^-1/2 (undirected factors with positive
   degrees only); ``transition`` D^-1 A (row-stochastic for non-negative
   weights and out-degrees).
-* Eigenvalue multisets are numpy arrays of length n sorted ascending by
-  (real part, imaginary part): float64 when the spectrum is real, complex128
-  otherwise.  Values within ``1e-12 * max(1, max|eigenvalue|)`` of an integer
-  are snapped to that integer (see :meth:`Factor.eigenvalues`).
+* Spectra are certified (:meth:`Factor.spectrum`): exact rationals where
+  the eigenvalue is rational, rigorous balls otherwise (see
+  :mod:`powerspec.factors.certify`); nothing is ever snapped.
+  :meth:`Factor.eigenvalues` gives the midpoints as a numpy array.
 
 A :class:`Factor` is immutable: every accessor returns a fresh copy.
 
@@ -32,24 +32,27 @@ A :class:`Factor` is immutable: every accessor returns a fresh copy.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+from fractions import Fraction
 from typing import Any
 
 import numpy as np
 import scipy.sparse as sp
+from flint import fmpq
 
 from powerspec.errors import InputError
+from powerspec.factors.certify import exact_degrees, numeric_eigenvalues, regular_map
 from powerspec.factors.matrix import (
     DIRECTIONS,
     MATRIX_KINDS,
-    SNAP_TOLERANCE,
     _canonical,
     _check_direction,
     _check_kind,
-    _snap,
     _to_csr,
 )
+from powerspec.spectra.spectrum import Spectrum
 
-__all__ = ["DIRECTIONS", "MATRIX_KINDS", "SNAP_TOLERANCE", "Factor", "from_matrix"]
+__all__ = ["DIRECTIONS", "MATRIX_KINDS", "Factor", "from_matrix"]
 
 
 # ---------------------------------------------------------------------------- Factor
@@ -68,8 +71,10 @@ class Factor:
     * ``adjacency`` -- canonical ``scipy.sparse.csr_array``, float64, n x n
       (duplicates summed, explicit zeros removed, indices sorted);
     * ``name`` -- display label such as ``"C(10)"``;
-    * ``closed_form`` -- adjacency eigenvalues from a family's closed form
-      (snapped and sorted like :meth:`eigenvalues`), or ``None``.
+    * ``closed_form`` -- a family's closed form: a callable taking a matrix
+      kind and the actual adjacency and returning [(value, multiplicity)]
+      (exact flint rationals or Arb balls), or None when it does not apply;
+      ``None`` for plain matrices.
 
     >>> g = from_matrix([[0, 1], [0, 0]], name="arc")
     >>> g.n, g.directed, g.has_loops
@@ -81,7 +86,7 @@ class Factor:
     __slots__ = ("_adj", "_name", "_closed_form", "_cache")
 
     def __init__(self, adjacency: Any, name: str | None = None,
-                 closed_form: Any | None = None):
+                 closed_form: Callable[[str, Any], list | None] | None = None):
         if isinstance(adjacency, Factor):
             raise InputError("Factor() got a Factor: use from_matrix(), which returns it as is")
         adj = _to_csr(adjacency)
@@ -90,17 +95,8 @@ class Factor:
             name = f"matrix({n}x{n})"
         if not isinstance(name, str):
             raise InputError(f"a factor name must be a string, got {type(name).__name__}")
-        if closed_form is not None:
-            cf = np.asarray(closed_form)
-            if cf.ndim != 1 or cf.shape[0] != n or cf.dtype.kind not in "biufc":
-                raise InputError(
-                    f"closed_form for {name} must be a 1-D numeric array of length {n}, "
-                    f"got shape {cf.shape} and dtype {cf.dtype}"
-                )
-            if not np.all(np.isfinite(cf)):
-                raise InputError(f"closed_form for {name} has non-finite values")
-            closed_form = _snap(cf)
-            closed_form.flags.writeable = False
+        if closed_form is not None and not callable(closed_form):
+            raise InputError("closed_form must be a callable kind -> [(value, multiplicity)] or None")
         object.__setattr__(self, "_adj", adj)
         object.__setattr__(self, "_name", name)
         object.__setattr__(self, "_closed_form", closed_form)
@@ -113,7 +109,7 @@ class Factor:
         raise AttributeError(f"Factor is immutable: cannot delete {key!r}")
 
     def __reduce__(self):
-        return (Factor, (self._adj, self._name, self._closed_form))
+        return (Factor, (self._adj, self._name, None))
 
     def __repr__(self) -> str:
         return f"Factor({self._name!r}, n={self.n})"
@@ -131,9 +127,9 @@ class Factor:
         return self._name
 
     @property
-    def closed_form(self) -> np.ndarray | None:
-        """A copy of the closed-form adjacency eigenvalues, or None if there is none."""
-        return None if self._closed_form is None else self._closed_form.copy()
+    def closed_form(self) -> Callable[[str, Any], list | None] | None:
+        """The family's closed form ((kind, adjacency) -> [(value, multiplicity)] or None), if any."""
+        return self._closed_form
 
     @property
     def n(self) -> int:
@@ -171,16 +167,32 @@ class Factor:
         axis = 1 if direction == "out" else 0
         return np.asarray(self._adj.sum(axis=axis), dtype=np.float64).ravel()
 
+    def exact_degrees(self, direction: str = "out") -> list[Fraction]:
+        """Exact weighted degrees (sums of the exact float64 entries) as Fractions.
+
+        >>> from powerspec.factors.families import P, scale
+        >>> scale(0.1, P(3)).exact_degrees()[1] == 2 * Fraction(0.1)
+        True
+        """
+        direction = _check_direction(direction)
+        key = ("exact_degrees", direction)
+        if key not in self._cache:
+            self._cache[key] = tuple(exact_degrees(self._adj, direction))
+        return list(self._cache[key])
+
+    def regular_degree(self, direction: str = "out") -> Fraction | None:
+        """The common exact degree when the factor is regular, else None."""
+        d = self.exact_degrees(direction)
+        return d[0] if all(x == d[0] for x in d) else None
+
     def is_regular(self, direction: str = "out") -> bool:
-        """True when all degrees agree within ``1e-12 * max(1, max|degree|)``.
+        """True when all degrees are exactly equal.
 
         >>> from powerspec.factors.families import C, K, P, dicycle, loops
         >>> C(5).is_regular(), K(1, 3).is_regular()
         (True, False)
         """
-        d = self.degrees(direction)
-        tol = SNAP_TOLERANCE * max(1.0, float(np.max(np.abs(d))))
-        return bool(np.max(d) - np.min(d) <= tol)
+        return self.regular_degree(direction) is not None
 
     # -- matrices ---------------------------------------------------------------------
 
@@ -248,70 +260,81 @@ class Factor:
         inv = sp.diags_array(self._inverse_degrees(direction), format="csr")
         return _canonical(inv @ a)
 
-    # -- eigenvalues ------------------------------------------------------------------
+    # -- spectra ----------------------------------------------------------------------
 
-    def eigenvalues(self, kind: str = "adjacency", direction: str = "out") -> np.ndarray:
-        """The eigenvalue multiset of ``matrix(kind, direction)``.
+    def certified(self, kind: str = "adjacency", direction: str = "out") -> list:
+        """The kind's eigenvalues as [(value, multiplicity)], certified.
 
-        Returns an array of length n sorted ascending by (real, imag): float64
-        when the spectrum is real, complex128 otherwise.
-
-        How it is obtained: for ``adjacency`` the family's closed form when
-        there is one; for the other kinds of a regular factor (degree d) with
-        a closed form, d - lambda, d + lambda, 1 - lambda/d, lambda/d.
-        Otherwise numerically on the dense matrix: ``numpy.linalg.eigvalsh``
-        for symmetric matrices (``transition`` and ``normalized`` of an
-        undirected factor with positive degrees go through the symmetric
-        D^-1/2 A D^-1/2), ``numpy.linalg.eigvals`` otherwise, with the usual
-        backward-stable accuracy (about 1e-15 * ||M|| for symmetric matrices;
-        defective eigenvalues of non-symmetric ones can be much less accurate).
-
-        Snapping: a real or imaginary part within ``1e-12 * max(1, s)`` of an
-        integer, s = max|eigenvalue|, is replaced by that integer exactly; an
-        array whose imaginary parts all snap to 0 is returned real.  Results
-        are cached per (kind, direction); a fresh copy is returned.
-
-        >>> from powerspec.factors.families import C, K, P, dicycle, loops
-        >>> C(4).eigenvalues().tolist()
-        [-2.0, 0.0, 0.0, 2.0]
-        >>> from powerspec.factors.families import C, K, P, dicycle, loops
-        >>> dicycle(4).eigenvalues().tolist()
-        [(-1+0j), -1j, 1j, (1+0j)]
+        Values are exact flint rationals (``fmpq``) where the eigenvalue is
+        rational and Arb balls (``arb`` / ``acb``) containing it otherwise;
+        multiplicities are exact.  Routes: the family's closed form, the
+        regular-graph map from the adjacency spectrum, or the certified
+        numerical routes of :mod:`powerspec.factors.certify`.  Cached.
         """
         kind = _check_kind(kind)
         direction = _check_direction(direction)
-        key = ("eigenvalues", kind, self._effective_direction(kind, direction))
+        direction = self._effective_direction(kind, direction)
+        key = ("certified", kind, direction)
         if key not in self._cache:
-            values = self._compute_eigenvalues(kind, direction)
-            values.flags.writeable = False
-            self._cache[key] = values
-        return self._cache[key].copy()
+            self._check_kind_allowed(kind, direction)
+            self._cache[key] = tuple(self._certify(kind, direction))
+        return list(self._cache[key])
 
-    def _compute_eigenvalues(self, kind: str, direction: str) -> np.ndarray:
+    def _check_kind_allowed(self, kind: str, direction: str) -> None:
+        if kind == "normalized":
+            self._positive_degree_scaling()
+        elif kind == "transition":
+            self._inverse_degrees(direction)
+
+    def _certify(self, kind: str, direction: str) -> list:
+        if self._adj.nnz == 0:  # the zero matrix: every kind that is defined is 0
+            return [(fmpq(0), self.n)]
         cf = self._closed_form
         if cf is not None:
-            if kind == "adjacency":
-                return cf.copy()
-            if self.is_regular(direction):
-                d = float(np.mean(self.degrees(direction)))
-                if kind == "laplacian":
-                    return _snap(d - cf)
-                if kind == "signless":
-                    return _snap(d + cf)
-                if kind == "transition" and d != 0:
-                    return _snap(cf / d)
-                if kind == "normalized" and d > 0 and not self.directed:
-                    return _snap(1.0 - cf / d)
-        if not self.directed and kind in ("transition", "normalized"):
-            if kind == "normalized" or np.all(self.degrees() > 0):
-                s = self._positive_degree_scaling()
-                dense = self._adj.toarray() * s[:, None] * s[None, :]
-                mu = np.linalg.eigvalsh(dense)
-                return _snap(mu if kind == "transition" else 1.0 - mu)
-        dense = self.matrix(kind, direction).toarray()
-        if np.array_equal(dense, dense.T):
-            return _snap(np.linalg.eigvalsh(dense))
-        return _snap(np.linalg.eigvals(dense))
+            vals = cf(kind, self._adj)
+            if vals is not None:
+                return vals
+            if kind != "adjacency":
+                d = self.regular_degree(direction)
+                adj = cf("adjacency", self._adj)
+                if d is not None and adj is not None:
+                    mapped = regular_map(kind, d, adj)
+                    if mapped is not None:
+                        return mapped
+        return numeric_eigenvalues(self._adj, kind, self.exact_degrees(direction), not self.directed)
+
+    def spectrum(self, kind: str = "adjacency", direction: str = "out"):
+        """The kind's certified spectrum as a :class:`~powerspec.spectra.spectrum.Spectrum`.
+
+        >>> from powerspec.factors.families import C
+        >>> C(4).spectrum("laplacian").atoms()
+        [(0.0, 1), (2.0, 2), (4.0, 1)]
+        """
+        key = ("spectrum", kind, self._effective_direction(kind, direction))
+        if key not in self._cache:
+            vals = self.certified(kind, direction)
+            self._cache[key] = Spectrum.from_hp([v for v, _ in vals], [m for _, m in vals])
+        return self._cache[key]
+
+    def eigenvalues(self, kind: str = "adjacency", direction: str = "out") -> np.ndarray:
+        """The eigenvalue multiset's midpoints: an array of length n, ascending by (real, imag).
+
+        float64 when the spectrum is real, complex128 otherwise.  Exact
+        eigenvalues are returned exactly (when representable); the others are
+        the midpoints of certified balls (see :meth:`spectrum` for radii).
+
+        >>> from powerspec.factors.families import C, dicycle
+        >>> C(4).eigenvalues().tolist()
+        [-2.0, 0.0, 0.0, 2.0]
+        >>> dicycle(4).eigenvalues().tolist()
+        [(-1+0j), -1j, 1j, (1+0j)]
+        """
+        sp_ = self.spectrum(kind, direction)
+        vals = sp_.expand()
+        if vals.dtype.kind == "c":
+            o = np.lexsort((vals.imag, vals.real))
+            vals = vals[o]
+        return vals
 
 
 # ------------------------------------------------------------------------ from_matrix

@@ -1,60 +1,173 @@
-"""Factor families in textbook notation, with their closed-form spectra."""
+"""Factor families in textbook notation, with their closed-form spectra.
+
+``P(n)`` path, ``C(n)`` cycle, ``K(n)`` complete graph, ``K(m, n)`` complete
+bipartite graph (the star is ``K(1, n)``), ``J(n)`` the all-ones matrix,
+``dicycle(n, w)`` a directed cycle with arc weights, ``scale(c, G)``,
+``loops(c, G)`` and the shipped demo ``motif()``.
+
+Closed forms are written for the *structure* of a family and read the actual
+weights off the factor's matrix: a factor whose off-diagonal weights all
+equal w and whose loops all equal l has the eigenvalues of w G + l I.  So a
+scaled or looped family keeps an exact closed form for the float64 matrix
+it really holds.  Values are exact rationals where rational (Niven's theorem
+for the cosines, perfect squares for the square roots) and certified Arb
+balls otherwise.  Spectra used (textbook, e.g. Brouwer & Haemers, *Spectra
+of Graphs*, 2012, ch. 1 -- from memory; each is tested against numpy):
+
+* P_n: adjacency 2 cos(pi j / (n+1)), j = 1..n; Laplacian (= signless, P_n is
+  bipartite) 2 - 2 cos(pi j / n), j = 0..n-1; transition cos(pi j / (n-1)),
+  j = 0..n-1 (n >= 2), normalized Laplacian 1 - cos(pi j / (n-1));
+* C_n: adjacency 2 cos(2 pi j / n), j = 0..n-1 (regular: other kinds follow);
+* K_n: n - 1 once, -1 (n - 1 times);
+* K_{m,n}: adjacency +-sqrt(mn), 0 (m + n - 2 times); Laplacian and signless
+  0, m (n - 1 times), n (m - 1 times), m + n; transition 1, -1, 0 (m + n - 2
+  times); normalized Laplacian 0, 2, 1 (m + n - 2 times);
+* dicycle with arc weights w_i: the n-th roots of prod w_i (the adjacency is a
+  weighted cyclic shift, whose n-th power is (prod w_i) I).
+"""
 
 from __future__ import annotations
 
 import io
-import math
+from collections.abc import Callable
+from fractions import Fraction
 from functools import cache
 from importlib import resources
 
 import numpy as np
 import scipy.io
 import scipy.sparse as sp
+from flint import arb, fmpq
 
-from powerspec.errors import InputError
+from powerspec.errors import InputError, SizeLimitError
 from powerspec.factors.factor import Factor, from_matrix
 from powerspec.factors.matrix import _check_count, _check_real, _format_number
+from powerspec.numbers.hp import cos2pi, rational, root_of_unity, sqrt_int, working
 
-# --------------------------------------------------------------------------- families
+MAX_FAMILY_ORDER = 1_000_000
+"""Largest order of a family factor (its closed form is evaluated atom by atom)."""
+
+MAX_FAMILY_NNZ = 4_000_000
+"""Largest number of stored adjacency entries of a family factor (memory)."""
+
+Form = Callable[[str, sp.csr_array], list | None]
 
 
-def _family(rows: np.ndarray, cols: np.ndarray, n: int, name: str,
-            closed_form: np.ndarray) -> Factor:
+def _uniform(adj: sp.csr_array) -> tuple[fmpq, fmpq] | None:
+    """(w, l) when every off-diagonal stored weight is w and every loop is l, else None."""
+    coo = adj.tocoo()
+    off = coo.row != coo.col
+    w = np.unique(coo.data[off])
+    diag = adj.diagonal()
+    l_ = np.unique(diag)
+    if w.size > 1 or l_.size > 1:
+        return None
+    return rational(float(w[0]) if w.size else 0.0), rational(float(l_[0]))
+
+
+def _affine(values: list[tuple], w: fmpq, shift: fmpq) -> list[tuple]:
+    with working():
+        return [(w * v + shift, m) for v, m in values]
+
+
+def _grouped(pairs: list[tuple]) -> list[tuple]:
+    """Merge equal exact values (balls are left as they are)."""
+    out: dict = {}
+    rest = []
+    for v, m in pairs:
+        if isinstance(v, fmpq):
+            out[v] = out.get(v, 0) + m
+        else:
+            rest.append((v, m))
+    return [(v, m) for v, m in out.items()] + rest
+
+
+def _form(unit: Callable[[str], list | None], kinds: tuple[str, ...]) -> Form:
+    """Closed form of w G + l I from the unit-weight spectra ``unit(kind)`` of G."""
+
+    def form(kind: str, adj: sp.csr_array) -> list | None:
+        wl = _uniform(adj)
+        if wl is None or kind not in kinds:
+            return None
+        w, l_ = wl
+        if w == 0:
+            return None
+        if kind == "adjacency":
+            return _affine(unit(kind), w, l_)
+        if kind == "laplacian":
+            return _affine(unit(kind), w, fmpq(0))
+        if kind == "signless":
+            return _affine(unit(kind), w, 2 * l_)
+        if l_ != 0 or (kind == "normalized" and w < 0):
+            return None
+        return unit(kind)  # transition and normalized do not see a common weight
+
+    return form
+
+
+def _family(rows: np.ndarray, cols: np.ndarray, n: int, name: str, form: Form) -> Factor:
+    if rows.size > MAX_FAMILY_NNZ:
+        raise SizeLimitError(f"{name} would store {rows.size} adjacency entries, more than "
+                             f"{MAX_FAMILY_NNZ}; use a smaller family member")
     data = np.ones(len(rows), dtype=np.float64)
     adj = sp.coo_array((data, (rows, cols)), shape=(n, n))
-    return Factor(adj, name, closed_form)
+    return Factor(adj, name, form)
+
+
+def _order(n: int, what: str) -> None:
+    if n > MAX_FAMILY_ORDER:
+        raise SizeLimitError(f"{what} has {n} vertices, more than the {MAX_FAMILY_ORDER} a family "
+                             "factor may have; use a smaller one")
+
+
+# --------------------------------------------------------------------- families
+def _path_unit(n: int):
+    def unit(kind: str) -> list | None:
+        with working():
+            if kind == "adjacency":
+                return _grouped([(2 * cos2pi(Fraction(j, 2 * (n + 1))), 1) for j in range(1, n + 1)])
+            if kind in ("laplacian", "signless"):
+                return _grouped([(2 - 2 * cos2pi(Fraction(j, 2 * n)), 1) for j in range(n)])
+            if n < 2:
+                return None
+            c = [cos2pi(Fraction(j, 2 * (n - 1))) for j in range(n)]
+            return _grouped([((x if kind == "transition" else 1 - x), 1) for x in c])
+    return unit
 
 
 def P(n: int) -> Factor:
     """The path P_n on n >= 1 vertices (0 - 1 - ... - n-1).
 
-    Closed form: 2 cos(pi j / (n+1)), j = 1..n.
-
     >>> P(3).eigenvalues().round(6).tolist()
     [-1.414214, 0.0, 1.414214]
     """
     n = _check_count(n, "P(n)", 1)
+    _order(n, f"P({n})")
     i = np.arange(n - 1)
     rows = np.concatenate([i, i + 1])
     cols = np.concatenate([i + 1, i])
-    cf = 2.0 * np.cos(np.pi * np.arange(1, n + 1) / (n + 1))
-    return _family(rows, cols, n, f"P({n})", cf)
+    kinds = ("adjacency", "laplacian", "signless", "transition", "normalized")
+    return _family(rows, cols, n, f"P({n})", _form(_path_unit(n), kinds))
 
 
 def C(n: int) -> Factor:
     """The cycle C_n on n >= 3 vertices.
 
-    Closed form: 2 cos(2 pi j / n), j = 0..n-1.
-
     >>> C(3).eigenvalues().tolist()
     [-1.0, -1.0, 2.0]
     """
     n = _check_count(n, "C(n)", 3)
+    _order(n, f"C({n})")
     i = np.arange(n)
     rows = np.concatenate([i, (i + 1) % n])
     cols = np.concatenate([(i + 1) % n, i])
-    cf = 2.0 * np.cos(2.0 * np.pi * np.arange(n) / n)
-    return _family(rows, cols, n, f"C({n})", cf)
+
+    def unit(kind: str) -> list:
+        with working():
+            return [(2 * cos2pi(Fraction(j, n)), 1 if 2 * j in (0, n) else 2)
+                    for j in range(n // 2 + 1)]
+
+    return _family(rows, cols, n, f"C({n})", _form(unit, ("adjacency",)))
 
 
 _ABSENT = object()
@@ -63,9 +176,8 @@ _ABSENT = object()
 def K(m: int, n: int = _ABSENT) -> Factor:
     """The complete graph K_m (one argument) or the complete bipartite graph K_{m,n} (two).
 
-    K_m, m >= 1: eigenvalues m-1 once and -1 (m-1 times), exact.
-    K_{m,n}, m, n >= 1 (vertices 0..m-1 | m..m+n-1; the star is K(1, n)):
-    eigenvalues +-sqrt(mn) and 0 (m+n-2 times).
+    K_m, m >= 1: vertices 0..m-1.  K_{m,n}, m, n >= 1: vertices 0..m-1 | m..m+n-1;
+    the star with n leaves is K(1, n).
 
     >>> K(4).eigenvalues().tolist()
     [-1.0, -1.0, -1.0, 3.0]
@@ -74,42 +186,113 @@ def K(m: int, n: int = _ABSENT) -> Factor:
     """
     if n is _ABSENT:
         m = _check_count(m, "K(n)", 1)
+        _order(m, f"K({m})")
+        if m * (m - 1) > MAX_FAMILY_NNZ:
+            raise SizeLimitError(f"K({m}) would store {m * (m - 1)} adjacency entries, more than "
+                                 f"{MAX_FAMILY_NNZ}; use a smaller family member")
         rows, cols = np.nonzero(~np.eye(m, dtype=bool))
-        cf = np.concatenate([[m - 1.0], -np.ones(m - 1)])
-        return _family(rows, cols, m, f"K({m})", cf)
+
+        def unit(kind: str) -> list:
+            return [(fmpq(m - 1), 1)] + ([(fmpq(-1), m - 1)] if m > 1 else [])
+
+        return _family(rows, cols, m, f"K({m})", _form(unit, ("adjacency",)))
     m = _check_count(m, "K(m, n)", 1, "m")
     n = _check_count(n, "K(m, n)", 1, "n")
+    _order(m + n, f"K({m}, {n})")
+    if 2 * m * n > MAX_FAMILY_NNZ:
+        raise SizeLimitError(f"K({m}, {n}) would store {2 * m * n} adjacency entries, more than "
+                             f"{MAX_FAMILY_NNZ}; use a smaller family member")
     left = np.repeat(np.arange(m), n)
     right = np.tile(np.arange(m, m + n), m)
     rows = np.concatenate([left, right])
     cols = np.concatenate([right, left])
-    r = math.sqrt(m * n)
-    cf = np.concatenate([[-r], np.zeros(m + n - 2), [r]])
-    return _family(rows, cols, m + n, f"K({m}, {n})", cf)
+
+    def unit(kind: str) -> list:
+        with working():
+            if kind == "adjacency":
+                r = sqrt_int(m * n)
+                return _grouped([(r, 1), (-r, 1), (fmpq(0), m + n - 2)])
+            if kind in ("laplacian", "signless"):
+                return _grouped([(fmpq(0), 1), (fmpq(m), n - 1), (fmpq(n), m - 1), (fmpq(m + n), 1)])
+            if kind == "transition":
+                return _grouped([(fmpq(1), 1), (fmpq(-1), 1), (fmpq(0), m + n - 2)])
+            return _grouped([(fmpq(0), 1), (fmpq(2), 1), (fmpq(1), m + n - 2)])
+
+    kinds = ("adjacency", "laplacian", "signless", "transition", "normalized")
+    return _family(rows, cols, m + n, f"K({m}, {n})", _form(unit, kinds))
 
 
 def J(n: int) -> Factor:
     """The all-ones matrix J_n, n >= 1 (K_n with a loop of weight 1 at every vertex).
 
-    Eigenvalues n once and 0 (n-1 times), exact.  The expected adjacency of
-    a block model with c equal communities of size N is P (x) J_N.
+    Eigenvalues n once and 0 (n-1 times), exact.  The expected adjacency of a
+    block model with c equal communities of size N is P (x) J_N.
 
     >>> J(3).eigenvalues().tolist()
     [0.0, 0.0, 3.0]
     """
     n = _check_count(n, "J(n)", 1)
+    _order(n, f"J({n})")
+    if n * n > MAX_FAMILY_NNZ:
+        raise SizeLimitError(f"J({n}) would store {n * n} entries, more than {MAX_FAMILY_NNZ}; "
+                             "use a smaller family member")
     rows, cols = np.nonzero(np.ones((n, n), dtype=bool))
-    cf = np.concatenate([[float(n)], np.zeros(n - 1)])
-    return _family(rows, cols, n, f"J({n})", cf)
+
+    def unit(kind: str) -> list:
+        return [(fmpq(n - 1), 1)] + ([(fmpq(-1), n - 1)] if n > 1 else [])
+
+    return _family(rows, cols, n, f"J({n})", _form(unit, ("adjacency",)))
+
+
+def _dicycle_form(n: int) -> Form:
+    def form(kind: str, adj: sp.csr_array) -> list | None:
+        if kind != "adjacency":
+            return None
+        diag = np.unique(adj.diagonal())
+        if diag.size > 1:
+            return None
+        loop = rational(float(diag[0]))
+        dense_w = [float(adj[i, (i + 1) % n]) for i in range(n)]
+        if adj.nnz != sum(1 for w in dense_w if w) + (n if loop != 0 else 0):
+            return None
+        prod = fmpq(1)
+        for w in dense_w:
+            prod *= rational(w)
+        with working():
+            if prod == 0:
+                return [(loop, n)]
+            g = _nth_root(abs(prod), n)
+            half = Fraction(0) if prod > 0 else Fraction(1, 2 * n)
+            return [(g * root_of_unity(Fraction(j, n) + half) + loop, 1) for j in range(n)]
+    return form
+
+
+def _nth_root(q: fmpq, n: int):
+    """q^(1/n) for a positive rational q: exact when it is rational, else a ball."""
+    p, d = int(q.p), int(q.q)
+    rp, rd = _iroot(p, n), _iroot(d, n)
+    if rp is not None and rd is not None:
+        return fmpq(rp, rd)
+    return arb(q).root(n)
+
+
+def _iroot(x: int, n: int) -> int | None:
+    r = round(x ** (1.0 / n)) if x.bit_length() < 1000 else None
+    if r is None:
+        return None
+    for c in (r - 1, r, r + 1):
+        if c >= 0 and c**n == x:
+            return c
+    return None
 
 
 def dicycle(n: int, w=None) -> Factor:
     """The directed cycle i -> i+1 (mod n), n >= 2, with optional arc weights w[i] on i -> i+1.
 
-    Without weights the eigenvalues are the n-th roots of unity exp(2 pi i j / n).
-    With weights they are g * exp(2 pi i j / n) for g = (prod w)^(1/n) when the
-    product of the weights is positive, g * exp(pi i (2j + 1) / n) with
-    g = |prod w|^(1/n) when it is negative, and all zero when a weight is 0.
+    Without weights the eigenvalues are the n-th roots of unity.  With
+    weights they are the n-th roots of prod w_i: g exp(2 pi i j / n) with
+    g = (prod w)^(1/n) when the product is positive, g exp(pi i (2j + 1) / n)
+    with g = |prod w|^(1/n) when it is negative, and all zero when a weight is 0.
 
     >>> dicycle(3).directed
     True
@@ -119,32 +302,28 @@ def dicycle(n: int, w=None) -> Factor:
     [-2.0, 2.0]
     """
     n = _check_count(n, "dicycle(n)", 2)
+    _order(n, f"dicycle({n})")
     i = np.arange(n)
     if w is None:
-        cf = np.exp(2j * np.pi * np.arange(n) / n)
-        return _family(i, (i + 1) % n, n, f"dicycle({n})", cf)
-    try:
-        weights = [_check_real(x, "dicycle(n, w): each weight") for x in w]
-    except TypeError:
-        raise InputError(f"dicycle(n, w): w must be a list of {n} numbers, got {w!r}") from None
-    if len(weights) != n:
-        raise InputError(f"dicycle(n, w): w must have n = {n} weights, got {len(weights)}")
-    prod = math.prod(weights)
-    if prod == 0.0:
-        cf = np.zeros(n, dtype=complex)
+        weights = [1.0] * n
+        name = f"dicycle({n})"
     else:
-        g = math.exp(sum(math.log(abs(x)) for x in weights) / n)
-        half = 0.0 if prod > 0 else 0.5
-        cf = g * np.exp(2j * np.pi * (np.arange(n) + half) / n)
+        try:
+            weights = [_check_real(x, "dicycle(n, w): each weight") for x in w]
+        except TypeError:
+            raise InputError(f"dicycle(n, w): w must be a list of {n} numbers") from None
+        if len(weights) != n:
+            raise InputError(f"dicycle(n, w): w must have n = {n} weights, got {len(weights)}")
+        name = f"dicycle({n}, w=[{', '.join(_format_number(x) for x in weights)}])"
     adj = sp.coo_array((np.array(weights, dtype=np.float64), (i, (i + 1) % n)), shape=(n, n))
-    shown = ", ".join(_format_number(x) for x in weights)
-    return Factor(adj, f"dicycle({n}, w=[{shown}])", cf)
+    return Factor(adj, name, _dicycle_form(n))
 
 
 def scale(c: float, g: Factor) -> Factor:
     """The factor g with every weight multiplied by the finite real c (c = 0 allowed).
 
-    The closed form, if any, is multiplied by c.  Name ``"scale(c, name)"``.
+    The closed form, if any, carries over (it reads the scaled weights).
+    Name ``"scale(c, name)"``.
 
     >>> h = scale(0.5, C(4))
     >>> h.name, h.eigenvalues().tolist()
@@ -152,15 +331,13 @@ def scale(c: float, g: Factor) -> Factor:
     """
     f = _check_real(c, "scale(c, G): c")
     g = from_matrix(g)
-    cf = g._closed_form
-    return Factor(g._adj * f, f"scale({_format_number(f)}, {g.name})",
-                  None if cf is None else cf * f)
+    return Factor(g.adjacency * f, f"scale({_format_number(f)}, {g.name})", g.closed_form)
 
 
 def loops(c: float, g: Factor) -> Factor:
     """The factor g plus c times the identity (a loop of weight c at every vertex).
 
-    The closed form, if any, is shifted by c.  Name ``"loops(c, name)"``.
+    The closed form, if any, carries over.  Name ``"loops(c, name)"``.
 
     >>> h = loops(1, K(3))
     >>> h.name, h.eigenvalues().tolist(), h.has_loops
@@ -168,10 +345,8 @@ def loops(c: float, g: Factor) -> Factor:
     """
     f = _check_real(c, "loops(c, G): c")
     g = from_matrix(g)
-    cf = g._closed_form
-    adj = g._adj + f * sp.eye_array(g.n, format="csr")
-    return Factor(adj, f"loops({_format_number(f)}, {g.name})",
-                  None if cf is None else cf + f)
+    adj = g.adjacency + f * sp.eye_array(g.n, format="csr")
+    return Factor(adj, f"loops({_format_number(f)}, {g.name})", g.closed_form)
 
 
 @cache
@@ -191,4 +366,5 @@ def motif() -> Factor:
     return Factor(mat, "motif")
 
 
-__all__ = ["C", "J", "K", "P", "dicycle", "loops", "motif", "scale"]
+__all__ = ["C", "J", "K", "MAX_FAMILY_NNZ", "MAX_FAMILY_ORDER", "P", "dicycle", "loops", "motif",
+           "scale"]
