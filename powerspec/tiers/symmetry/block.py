@@ -46,10 +46,12 @@ from powerspec.tiers.symmetry.factor import (
     factor_spectrum,
     group_perturbation,
 )
-from powerspec.tiers.symmetry.patterns import U, GTModule, gamma
+from powerspec.tiers.symmetry.patterns import GTModule, U, gamma
 from powerspec.tiers.symmetry.plan import PowerOperand, rule_name
 from powerspec.tiers.symmetry.rigor import certify_symmetric, fro_up, split_matmul, up
 from powerspec.tiers.symmetry.rotations import orthogonal_image
+
+OVERFLOW = "symmetry tier: block entries overflow float64; ask for fewer copies or bounds"
 
 
 @dataclass(frozen=True)
@@ -147,7 +149,9 @@ def _operand_data(op: PreparedOperand, shape: Partition, rule: str, b: float, ne
     return u, eps, x, x_err, pert, dv, d_err
 
 
-def _combine(parts: list[tuple[np.ndarray, np.ndarray]], additive: bool) -> tuple[np.ndarray, np.ndarray]:
+def _combine(
+    parts: list[tuple[np.ndarray, np.ndarray]], additive: bool
+) -> tuple[np.ndarray, np.ndarray]:
     """Kronecker-ordered outer product (or sum) of per-operand diagonals with entrywise error bounds."""
     val, err = parts[0]
     for v2, e2 in parts[1:]:
@@ -197,7 +201,7 @@ def compute_block(ops: list[PreparedOperand], shapes: tuple[Partition, ...], a: 
             dd_err = (dd_err + U * np.abs(dd - 1.0)) / abs(b) + U * np.abs(d_new)
             dd = d_new
     if not (np.all(np.isfinite(c)) and math.isfinite(pert)):
-        raise SymmetryError("symmetry tier: block entries overflow float64; ask for fewer copies or bounds")
+        raise SymmetryError(OVERFLOW)
     cmax = float(np.max(np.abs(c) + c_err))
     cerr = float(np.max(c_err))
     # C = U diag(c) U^T from split products
@@ -229,7 +233,7 @@ def compute_block(ops: list[PreparedOperand], shapes: tuple[Partition, ...], a: 
         bt[diag] += 1.0
         err += U * float(np.max(np.abs(bt[diag])))
     if not np.all(np.isfinite(bt)):
-        raise SymmetryError("symmetry tier: block entries overflow float64; ask for fewer copies or bounds")
+        raise SymmetryError(OVERFLOW)
     mu, r = certify_symmetric(bt)
     radius = up(err + r)
     if rule == "multiplicative" and kind in ("laplacian", "signless", "adjacency"):
@@ -237,6 +241,7 @@ def compute_block(ops: list[PreparedOperand], shapes: tuple[Partition, ...], a: 
         scale = float(monomials(np.array([b]), np.array([[total - 1]]))[0])
         if scale != 1.0:
             mu_scaled = mu * scale
-            rad = radius * abs(scale) * (1 + gamma(2 * total + 2)) + gamma(2 * total + 2) * np.abs(mu_scaled)
+            g = gamma(2 * total + 2)
+            rad = radius * abs(scale) * (1 + g) + g * np.abs(mu_scaled)
             return Block(mu_scaled, rad, multiplicity, tuple(shapes))
     return Block(mu, np.full(mu.shape, radius), multiplicity, tuple(shapes))

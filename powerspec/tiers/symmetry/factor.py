@@ -83,12 +83,16 @@ def exact_normalized(a: np.ndarray, deg: np.ndarray) -> Callable[[], flint.arb_m
     def build() -> flint.arb_mat:
         n = a.shape[0]
         s = [1 / flint.arb(float(v)).sqrt() for v in deg]
-        return flint.arb_mat([[s[i] * flint.arb(float(a[i, j])) * s[j] for j in range(n)] for i in range(n)])
+        return flint.arb_mat(
+            [[s[i] * flint.arb(float(a[i, j])) * s[j] for j in range(n)] for i in range(n)]
+        )
 
     return build
 
 
-def factor_spectrum(x_float: np.ndarray, exact: Callable[[], flint.arb_mat] | None = None) -> FactorSpectrum:
+def factor_spectrum(
+    x_float: np.ndarray, exact: Callable[[], flint.arb_mat] | None = None
+) -> FactorSpectrum:
     """Certified spectral data of the symmetric matrix whose exact value ``exact()`` builds.
 
     ``x_float`` is a float64 approximation used for the eigensolver; ``exact`` defaults to

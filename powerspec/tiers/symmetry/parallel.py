@@ -35,7 +35,9 @@ def _job(args: tuple) -> Block:
     return compute_block(ops, shapes, a, b, kind, mult)
 
 
-def _jobs(ops: list[PreparedOperand], the_plan: SymmetryPlan, a: float, b: float, kind: str) -> list[tuple]:
+def _jobs(
+    ops: list[PreparedOperand], the_plan: SymmetryPlan, a: float, b: float, kind: str
+) -> list[tuple]:
     specs = sorted(the_plan.specs, key=lambda s: -s.dim)
     return [(ops, s.shapes, a, b, kind, s.multiplicity) for s in specs]
 

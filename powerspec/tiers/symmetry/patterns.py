@@ -105,8 +105,10 @@ class GTModule:
         down([top])
         self.patterns = pats
         self._index = {pat: a for a, pat in enumerate(pats)}
-        sums = np.array([[sum(r) for r in pat] for pat in pats], dtype=np.int64).reshape(len(pats), self.n)
-        self.weights = np.diff(np.concatenate([np.zeros((len(pats), 1), np.int64), sums], axis=1), axis=1)
+        sums = np.array([[sum(r) for r in pat] for pat in pats], dtype=np.int64)
+        sums = sums.reshape(len(pats), self.n)
+        zero = np.zeros((len(pats), 1), np.int64)
+        self.weights = np.diff(np.concatenate([zero, sums], axis=1), axis=1)
         self._lower = {}
         self._planes = {}
 

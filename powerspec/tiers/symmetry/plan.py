@@ -83,17 +83,18 @@ class SymmetryPlan:
         >>> SymmetryPlan(9, 1, 9, 729, 9072, 9, ()).check(max_block=5)
         Traceback (most recent call last):
         ...
-        powerspec.tiers.symmetry.errors.SymmetryError: symmetry tier: largest block 9 exceeds the limit 5; ask for fewer copies, bounds or moments instead
+        powerspec.tiers.symmetry.errors.SymmetryError: symmetry tier: largest block 9 exceeds ...
         """
         if max_block is not None and self.largest > max_block:
-            raise SymmetryError(f"symmetry tier: largest block {self.largest} exceeds the limit {max_block}; "
-                                "ask for fewer copies, bounds or moments instead")
+            raise SymmetryError(f"symmetry tier: largest block {self.largest} exceeds the limit "
+                                f"{max_block}; ask for fewer copies, bounds or moments instead")
         if max_work is not None and self.work > max_work:
             raise SymmetryError(f"symmetry tier: work {self.work:.3g} (sum of d^3) exceeds the limit "
                                 f"{max_work:.3g}; ask for fewer copies, bounds or moments instead")
         if max_memory is not None and self.memory > max_memory:
-            raise SymmetryError(f"symmetry tier: about {self.memory / 2**20:.0f} MiB per block exceeds the "
-                                f"limit {max_memory / 2**20:.0f} MiB; ask for fewer copies or bounds instead")
+            raise SymmetryError(f"symmetry tier: about {self.memory / 2**20:.0f} MiB per block "
+                                f"exceeds the limit {max_memory / 2**20:.0f} MiB; "
+                                "ask for fewer copies or bounds instead")
 
 
 def rule_name(a: float, b: float) -> str:
@@ -121,10 +122,11 @@ def validate(operands: list[PowerOperand], a: float, b: float, kind: str) -> lis
     >>> validate([PowerOperand(np.array([[0., 1], [2, 0]]), np.ones(2), 2)], 0, 1, "laplacian")
     Traceback (most recent call last):
     ...
-    powerspec.tiers.symmetry.errors.SymmetryError: symmetry tier: operand 1 is not symmetric; this tier needs undirected (symmetric) factors
+    powerspec.tiers.symmetry.errors.SymmetryError: symmetry tier: operand 1 is not symmetric; ...
     """
     if kind not in KINDS:
-        raise SymmetryError(f"symmetry tier: unknown matrix kind {kind!r}; use one of {', '.join(KINDS)}")
+        raise SymmetryError(f"symmetry tier: unknown matrix kind {kind!r}; "
+                            f"use one of {', '.join(KINDS)}")
     rule = rule_name(a, b)
     if not operands:
         raise SymmetryError("symmetry tier: no operands; give at least one factor")
@@ -133,7 +135,8 @@ def validate(operands: list[PowerOperand], a: float, b: float, kind: str) -> lis
         adj = np.asarray(op.adjacency, dtype=float)
         deg = np.asarray(op.degrees, dtype=float).ravel()
         if adj.ndim != 2 or adj.shape[0] != adj.shape[1] or adj.shape[0] == 0:
-            raise SymmetryError(f"symmetry tier: operand {i} adjacency must be a non-empty square matrix")
+            raise SymmetryError(f"symmetry tier: operand {i} adjacency must be a non-empty "
+                                "square matrix")
         if not np.all(np.isfinite(adj)) or not np.all(np.isfinite(deg)):
             raise SymmetryError(f"symmetry tier: operand {i} has non-finite entries")
         if not np.array_equal(adj, adj.T):
@@ -154,8 +157,8 @@ def validate(operands: list[PowerOperand], a: float, b: float, kind: str) -> lis
             raise SymmetryError(f"symmetry tier: with b = {b:g} the product degrees are negative; the "
                                 f"{kind} matrix needs positive degrees")
         if rule == "shifted" and b < 0:
-            raise SymmetryError(f"symmetry tier: the {kind} matrix of mix(1, b) with b < 0 is not supported; "
-                                "use b > 0")
+            raise SymmetryError(f"symmetry tier: the {kind} matrix of mix(1, b) with b < 0 is not "
+                                "supported; use b > 0")
     return out
 
 
@@ -177,8 +180,8 @@ def plan(operands: list[PowerOperand], a: float, b: float, kind: str) -> Symmetr
             f, d = schur_weyl_dims(lam, n)
             shapes.append((lam, f, d))
             if len(shapes) > MAX_SHAPES:
-                raise SymmetryError(f"symmetry tier: more than {MAX_SHAPES} blocks for {op.copies} copies of "
-                                    f"a {n}-vertex factor; ask for bounds or moments instead")
+                raise SymmetryError(f"symmetry tier: more than {MAX_SHAPES} blocks for {op.copies} "
+                                    f"copies of a {n}-vertex factor; ask for bounds or moments instead")
         per_op.append(shapes)
     count = math.prod(len(s) for s in per_op)
     if count > MAX_SHAPES:

@@ -40,7 +40,7 @@ import math
 import flint
 import numpy as np
 
-from powerspec.tiers.symmetry.patterns import U, GTModule, coef_rel, gamma
+from powerspec.tiers.symmetry.patterns import GTModule, U, coef_rel, gamma
 from powerspec.tiers.symmetry.rigor import fro_up, gram_defect, split_matmul, up
 
 Rotation = tuple[int, float]
@@ -160,7 +160,8 @@ class _BlockEig:
         self.zr = np.ascontiguousarray(z.real)
         self.zi = np.ascontiguousarray(z.imag)
         self.m = m.astype(np.int64)
-        # delta >= ||Z^H Z - I||: real part through the stacked [Zr; Zi], imaginary part Zr^T Zi - Zi^T Zr
+        # delta >= ||Z^H Z - I||: real part through the stacked [Zr; Zi],
+        # imaginary part Zr^T Zi - Zi^T Zr
         w = np.vstack([self.zr, self.zi])
         im, e_im = split_matmul(self.zr.T, self.zi)
         im_part = im - im.T
@@ -172,9 +173,11 @@ class _BlockEig:
         er = -kzi - zrm
         ei = kzr - zim
         e_fl = e_kz + gamma(2) * (fro_up(kz) + fro_up(zrm) + fro_up(zim))
-        # the exact K differs from the float one entrywise by coef_rel(n): ||dK||_2 <= rel sqrt(||K||_1 ||K||_inf)
+        # the exact K differs from the float one entrywise by coef_rel(n):
+        # ||dK||_2 <= rel sqrt(||K||_1 ||K||_inf)
         ak = np.abs(k)
-        k_abs2 = math.sqrt(float(ak.sum(axis=0).max()) * float(ak.sum(axis=1).max())) * (1 + gamma(b + 2))
+        norm1, norm_inf = float(ak.sum(axis=0).max()), float(ak.sum(axis=1).max())
+        k_abs2 = math.sqrt(norm1 * norm_inf) * (1 + gamma(b + 2))
         dk = coef_rel(n) * k_abs2
         self.e_norm = up(math.hypot(fro_up(er), fro_up(ei)) + e_fl + dk * math.sqrt(1 + self.delta))
         self.z_fro = math.hypot(fro_up(self.zr), fro_up(self.zi))
