@@ -1,39 +1,74 @@
 """powerspec: spectra of graph products and very high graph powers, from the factors.
 
-The pipeline (DESIGN §3): :mod:`~powerspec.factors` build and validate factor
-graphs; :mod:`~powerspec.measures` hold eigenvalue multisets with exact
-multiplicities; :mod:`~powerspec.products` and :mod:`~powerspec.algebra`
-combine them over expression trees (:mod:`~powerspec.powers` and
-:mod:`~powerspec.extremes` do the heavy lifting); :mod:`~powerspec.planner`
-answers queries as :class:`~powerspec.answers.Answer` objects; the
-:mod:`~powerspec.cli` and :mod:`~powerspec.demo` only translate.
+The pipeline (DESIGN §3), one subpackage per stage:
+:mod:`~powerspec.factors` (build, read, validate factors; certified factor
+spectra) -> :mod:`~powerspec.spectra` (eigenvalue multisets: certified atoms,
+exact multiplicities) -> :mod:`~powerspec.algebra` (expression tree, grammar,
+product rules, powers, extremes, moments) -> :mod:`~powerspec.tiers` (exact,
+symmetry, bracket, law, moment bounds) -> :mod:`~powerspec.queries` (the
+planner and the queries) -> :mod:`~powerspec.answers` (one result type) ->
+:mod:`~powerspec.interfaces` (command line, plots, demo).  The number domains
+live in :mod:`~powerspec.numbers`.
+
+Names are loaded on first use, so ``import powerspec`` stays cheap.
 
 >>> import powerspec
 >>> powerspec.spectrum("cart(K(2)^2)").atoms.atoms()
 [(-2.0, 1), (0.0, 2), (2.0, 1)]
 """
 
-__version__ = "0.1.0"
+from __future__ import annotations
 
-from powerspec.algebra.engine import Engine, Leaf, Product  # noqa: E402
-from powerspec.algebra.grammar import parse  # noqa: E402
-from powerspec.answers.answer import Answer  # noqa: E402
-from powerspec.errors import (  # noqa: E402
-    ExpressionError,
-    FactorFileError,
-    InputError,
-    NotExactError,
-    PowerspecError,
-    SizeLimitError,
-    SymbolicError,
-)
-from powerspec.factors import C, Factor, J, K, P, dicycle, from_matrix, load, loops, motif, scale  # noqa: E402
-from powerspec.queries.planner import cdf, count, quantile, spectrum, top  # noqa: E402
-from powerspec.spectra.measures import Spectrum  # noqa: E402
+import importlib
 
-__all__ = [
-    "Answer", "Engine", "ExpressionError", "Factor", "FactorFileError", "InputError", "Leaf",
-    "NotExactError", "PowerspecError", "Product", "SizeLimitError", "Spectrum", "SymbolicError",
-    "C", "J", "K", "P", "dicycle", "from_matrix", "load", "loops",
-    "motif", "parse", "scale", "spectrum", "top", "cdf", "count", "quantile",
-]
+__version__ = "0.2.0"
+
+_EXPORTS = {
+    "Answer": "powerspec.answers.answer",
+    "Engine": "powerspec.algebra.engine",
+    "Leaf": "powerspec.algebra.engine",
+    "Product": "powerspec.algebra.engine",
+    "parse": "powerspec.algebra.grammar",
+    "ExpressionError": "powerspec.errors",
+    "FactorFileError": "powerspec.errors",
+    "InputError": "powerspec.errors",
+    "NotExactError": "powerspec.errors",
+    "PowerspecError": "powerspec.errors",
+    "SizeLimitError": "powerspec.errors",
+    "SymbolicError": "powerspec.errors",
+    "C": "powerspec.factors",
+    "Factor": "powerspec.factors",
+    "J": "powerspec.factors",
+    "K": "powerspec.factors",
+    "P": "powerspec.factors",
+    "dicycle": "powerspec.factors",
+    "from_matrix": "powerspec.factors",
+    "load": "powerspec.factors",
+    "loops": "powerspec.factors",
+    "motif": "powerspec.factors",
+    "scale": "powerspec.factors",
+    "Spectrum": "powerspec.spectra.spectrum",
+    "spectrum": "powerspec.queries.planner",
+    "top": "powerspec.queries.planner",
+    "cdf": "powerspec.queries.planner",
+    "count": "powerspec.queries.planner",
+    "quantile": "powerspec.queries.planner",
+}
+
+__all__ = sorted(_EXPORTS)
+
+
+def __getattr__(name: str):
+    mod = _EXPORTS.get(name)
+    if mod is None:
+        try:
+            return importlib.import_module(f"powerspec.{name}")
+        except ImportError:
+            raise AttributeError(f"module 'powerspec' has no attribute {name!r}") from None
+    value = getattr(importlib.import_module(mod), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(_EXPORTS))

@@ -1,27 +1,28 @@
-"""Product algebra: expression trees of factors and products, and the exact engine.
+"""The exact engine: certified spectra of expression nodes, for every matrix kind.
 
-An expression is a tree of :class:`Leaf` (a factor graph) and
-:class:`Product` nodes.  A product node holds a
-:class:`~powerspec.products.Combination` and a tuple of operands, each an
-(expression, copies) pair: ``cart(C(10)^6)`` is one product node with the
-single operand (C(10), 6).
-
-:class:`Engine` computes the exact spectrum of any node for any matrix kind
-by the rules of :mod:`powerspec.products`: associative combinations are
-linearised and powered in s-space (:mod:`powerspec.powers`); ``mix`` with a
+:class:`Engine` computes the spectrum of any node of the expression tree
+(:mod:`powerspec.algebra.tree`) by the rules of
+:mod:`powerspec.algebra.kinds`: associative combinations are powered by
+compositions or squaring (:mod:`powerspec.algebra.powers`); ``mix`` with a
 outside {0, 1} is evaluated as the documented left fold; a matrix kind that
-is exact only for regular operands is obtained from the adjacency spectrum
-and the (exactly known) common degree, and refused with
-:class:`~powerspec.errors.NotExactError` otherwise.
+is exact only for regular operands is an affine image of the adjacency
+spectrum with the exactly known common degree, and refused with
+:class:`~powerspec.errors.NotExactError` otherwise.  Values are exact
+rationals where all factor eigenvalues involved are rational and certified
+balls elsewhere; multiplicities are always exact.
+
+Regularity is decided exactly and structurally (a product is regular iff
+every operand is, or -- for multiplicative rules -- an operand is regular
+with linearised degree 0), never from rounded degrees.
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
-from functools import reduce
+from fractions import Fraction
 
 import numpy as np
+from flint import arb, fmpq
 
 from powerspec.algebra.kinds import (
     MATRIX_KINDS,
@@ -30,12 +31,17 @@ from powerspec.algebra.kinds import (
     REGULAR_FORM,
     Combination,
 )
-from powerspec.algebra.powers import check_pairs, composition_count, outer, power
+from powerspec.algebra.powers import check_atoms, combine, composition_count, fold, power
+from powerspec.algebra.rules import scale_shift
+from powerspec.algebra.tree import Leaf, Node, Product
 from powerspec.errors import InputError, NotExactError, SizeLimitError
-from powerspec.factors import Factor
-from powerspec.numbers.counts import BigCount, power_product
+from powerspec.factors.certify import _residual_eigenvalues
+from powerspec.numbers.convert import to_balls
+from powerspec.numbers.counts import bit_length
 from powerspec.numbers.counts import log2 as count_log2
-from powerspec.spectra.measures import LINEAR_MAX, Spectrum, mult_array, outer_mult, polar_add, polar_mul
+from powerspec.numbers.hp import HP, as_ball, working
+from powerspec.numbers.rationals import Rationals
+from powerspec.spectra.spectrum import Spectrum, mult_array
 
 DEFAULT_LIMIT = 2_000_000
 """Default largest number of distinct eigenvalues an exact answer may hold."""
@@ -49,73 +55,8 @@ BOUND_CAP = 2**63
 MAX_MULT_BYTES = 2 * 2**30
 """Memory allowed for the exact multiplicities of one spectrum (atoms x bits of the order)."""
 
-
-@dataclass(frozen=True, eq=False)
-class Leaf:
-    """A factor graph at the leaves of an expression."""
-
-    factor: Factor
-
-    @property
-    def order(self) -> int:
-        """Number of vertices (exact int)."""
-        return self.factor.n
-
-    @property
-    def directed(self) -> bool:
-        """True when the factor's adjacency matrix is not symmetric."""
-        return self.factor.directed
-
-    def label(self) -> str:
-        """The expression text of this node."""
-        return self.factor.name
-
-    def leaves(self) -> list[Factor]:
-        """The factors of this subtree."""
-        return [self.factor]
-
-
-@dataclass(frozen=True, eq=False)
-class Product:
-    """A product of operands; ``operands`` are (node, copies) pairs with copies >= 1."""
-
-    comb: Combination
-    operands: tuple[tuple[Leaf | Product, int], ...]
-    name: str = field(default="")
-
-    def __post_init__(self):
-        if not self.operands:
-            raise InputError("a product needs at least one operand")
-        for _, k in self.operands:
-            if not isinstance(k, int) or isinstance(k, bool) or k < 1:
-                raise InputError(f"copies must be an integer >= 1, got {k!r}")
-
-    @property
-    def order(self) -> int | BigCount:
-        """Number of vertices, prod n_j^k_j: an exact int, or a BigCount when enormous."""
-        return power_product((node.order, k) for node, k in self.operands)
-
-    @property
-    def directed(self) -> bool:
-        """True when any factor below is directed."""
-        return any(node.directed for node, _ in self.operands)
-
-    def label(self) -> str:
-        """The expression text of this node."""
-        head = self.name or self.comb.label()
-        if head.startswith("mix("):
-            prefix = head[:-1] + ", "
-        else:
-            prefix = head + "("
-        parts = [node.label() + (f"^{k}" if k != 1 else "") for node, k in self.operands]
-        return prefix + ", ".join(parts) + ")"
-
-    def leaves(self) -> list[Factor]:
-        """The factors of this subtree."""
-        return [f for node, _ in self.operands for f in node.leaves()]
-
-
-Node = Leaf | Product
+FOLD_MAX = 10_000
+"""Largest number of copies in a non-associative left fold."""
 
 
 def _check_kind(kind: str) -> None:
@@ -123,15 +64,41 @@ def _check_kind(kind: str) -> None:
         raise InputError(f"unknown matrix kind {kind!r}; choose one of {', '.join(MATRIX_KINDS)}")
 
 
+def affine(sp: Spectrum, shift: HP | Fraction, factor: HP | Fraction) -> Spectrum:
+    """The spectrum of shift + factor * M (same multiplicities), exact or certified.
+
+    >>> affine(Spectrum.from_values([1, -1]), Fraction(2), Fraction(-1)).atoms()
+    [(1.0, 1), (3.0, 1)]
+    """
+    shift, factor = _q(shift), _q(factor)
+    if isinstance(shift, Fraction) and isinstance(factor, Fraction):
+        v = sp.values if isinstance(sp.values, Rationals) else sp.as_balls()
+        return Spectrum(scale_shift(v, shift, factor), sp.mult.copy(), order=sp.order)
+    b = sp.as_balls()
+    out = b.mul(to_balls([factor])).add(to_balls([shift]))
+    return Spectrum(out, sp.mult.copy(), order=sp.order)
+
+
+def _q(x) -> HP | Fraction:
+    if isinstance(x, fmpq):
+        return Fraction(int(x.p), int(x.q))
+    if isinstance(x, (int, Fraction)):
+        return Fraction(x)
+    if isinstance(x, float):
+        return Fraction(x)
+    return x
+
+
 class Engine:
-    """Exact spectra of expression nodes, with a size limit checked before work.
+    """Certified spectra of expression nodes, with a size limit checked before work.
 
     ``limit`` bounds the distinct eigenvalues of any intermediate or final
     result, ``limit * PAIR_FACTOR`` the pairs formed in one step.  Results are
     cached per (node, kind), so a repeated sub-expression costs once.
 
     >>> from powerspec.factors import K
-    >>> q3 = Product(Combination(1.0, 0.0), ((Leaf(K(2)), 3),))
+    >>> from powerspec.algebra.kinds import CARTESIAN
+    >>> q3 = Product(CARTESIAN, ((Leaf(K(2)), 3),))
     >>> Engine().spectrum(q3).atoms()
     [(-3.0, 1), (-1.0, 3), (1.0, 3), (3.0, 1)]
     """
@@ -144,99 +111,139 @@ class Engine:
         self.limit = limit
         self.budget = limit * PAIR_FACTOR
         self.direction = direction
-        self._cache: dict[tuple[int, str], Spectrum] = {}
+        self._cache: dict[tuple[int, str], object] = {}
         self._keep: list[Node] = []  # keep nodes alive so id() keys stay unique
+
+    def _cached(self, node: Node, key: str, compute):
+        k = (id(node), key)
+        if k not in self._cache:
+            self._cache[k] = compute()
+            self._keep.append(node)
+        return self._cache[k]
 
     # ------------------------------------------------------------ degrees
     def degrees(self, node: Node) -> Spectrum:
         """Exact multiset of vertex degrees (row sums; column sums when direction='in')."""
-        key = (id(node), "#degree")
-        if key not in self._cache:
+        def compute():
             if isinstance(node, Leaf):
-                sp = Spectrum.from_values(node.factor.degrees(self.direction))
-            else:
-                sp = self._combine(node.comb, [(self.degrees(c), k) for c, k in node.operands])
-            self._store(key, node, sp)
-        return self._cache[key]
+                d = node.factor.exact_degrees(self.direction)
+                return Spectrum(Rationals.from_fractions(d), np.ones(len(d), dtype=np.int64))
+            return self._combine(node.comb, [(self.degrees(c), k) for c, k in node.operands])
+        return self._cached(node, "#degree", compute)
+
+    def regular_degree(self, node: Node) -> HP | None:
+        """The common degree (exact fmpq, or a ball when astronomically large) or None.
+
+        Decided exactly and structurally; see the module docstring.
+        """
+        return self._cached(node, "#regular", lambda: self._regular_degree(node))
+
+    def _regular_degree(self, node: Node) -> HP | None:
+        if isinstance(node, Leaf):
+            d = node.factor.regular_degree(self.direction)
+            return None if d is None else fmpq(d.numerator, d.denominator)
+        comb = node.comb
+        if comb.mode == "zero":
+            return fmpq(0)
+        if comb.mode is None:
+            if sum(k for _, k in node.operands) > FOLD_MAX or not self.fits_degrees(node):
+                return None
+            deg = self.degrees(node)
+            return deg.ball(0) if len(deg) == 1 else None
+        kids = [(self.regular_degree(c), k) for c, k in node.operands]
+        shift, factor = comb.to_s()
+        if comb.mode == "mul":
+            with working():
+                for d, _ in kids:
+                    if d is not None and isinstance(d, fmpq) and _s_value(d, shift, factor) == 0:
+                        back_shift, _ = comb.from_s()
+                        return fmpq(back_shift.numerator, back_shift.denominator)
+        if any(d is None for d, _ in kids):
+            return None
+        return _combine_scalars(comb, kids)
 
     def is_regular(self, node: Node) -> bool:
-        """True when every vertex of the node has the same degree (exact multiset test)."""
-        return len(self.degrees(node)) == 1
+        """True when every vertex of the node has the same degree (exact, structural)."""
+        return self.regular_degree(node) is not None
+
+    def fits_degrees(self, node: Node) -> bool:
+        """True when the exact degree multiset fits the atom limit (cheap bound)."""
+        return self._bound(node, "#degree") <= self.limit
 
     # ----------------------------------------------------------- spectrum
     def spectrum(self, node: Node, kind: str = "adjacency") -> Spectrum:
-        """The exact spectrum (merged multiset) of the node's matrix of the given kind.
+        """The spectrum (merged multiset) of the node's matrix of the given kind.
 
         Raises NotExactError when the kind's spectrum does not follow from the
         factors', SizeLimitError when it would exceed the limit.
         """
         _check_kind(kind)
-        key = (id(node), kind)
-        if key not in self._cache:
-            self._store(key, node, self._spectrum(node, kind))
-        return self._cache[key]
-
-    def _store(self, key, node, sp) -> None:
-        self._cache[key] = sp
-        self._keep.append(node)
+        return self._cached(node, kind, lambda: self._spectrum(node, kind))
 
     def _spectrum(self, node: Node, kind: str) -> Spectrum:
         if isinstance(node, Leaf):
-            return Spectrum.from_values(node.factor.eigenvalues(kind, self.direction))
+            return node.factor.spectrum(kind, self.direction)
         if kind == "normalized" and node.directed:
-            raise InputError(
-                "the normalized Laplacian is defined for undirected graphs only; "
-                "use --matrix laplacian or transition"
-            )
+            raise InputError("the normalized Laplacian is defined for undirected graphs only; "
+                             "use --matrix laplacian or transition")
         rule = MATRIX_RULES[kind](node.comb)
         if rule is not None:
             return self._combine(rule, [(self.spectrum(c, kind), k) for c, k in node.operands])
-        if not self.is_regular(node) and kind in ("laplacian", "signless"):
+        if kind in ("laplacian", "signless") and not self.is_regular(node):
             blocks = self._one_irregular(node, kind)
             if blocks is not None:
                 return blocks
         shift, factor = self._regular_form(node, kind)
-        return self.spectrum(node, "adjacency").affine(shift, factor)
+        return affine(self.spectrum(node, "adjacency"), shift, factor)
 
     def linear_form(self, node: Product, kind: str):
         """(combination, operand kind, (shift, factor)) with M = shift + factor * (rule spectrum).
 
         The kind's eigenvalues of ``node`` are the ``combination`` of its operands'
-        ``operand kind`` eigenvalues, mapped by the affine post-transform.  Raises
-        NotExactError when no such form exists (a kind exact only for regular
-        products, on an irregular one) -- even where the engine could still
-        enumerate the spectrum block by block.
+        ``operand kind`` eigenvalues, mapped by the affine post-transform (exact
+        Fractions, or balls for astronomically large degrees).  Raises
+        NotExactError when no such form exists.
         """
         rule = MATRIX_RULES[kind](node.comb)
         if rule is not None:
-            return rule, kind, (0.0, 1.0)
+            return rule, kind, (Fraction(0), Fraction(1))
         return node.comb, "adjacency", self._regular_form(node, kind)
 
-    def _regular_form(self, node: Product, kind: str) -> tuple[float, float]:
-        deg = self.degrees(node)
-        if len(deg) != 1:
-            lo, hi = _real_range(deg)
+    def _regular_form(self, node: Product, kind: str):
+        d = self.regular_degree(node)
+        if d is None:
             raise NotExactError(
-                f"the {kind} spectrum of {node.label()} is not exact: "
-                f"{NON_EXACT_REASON[kind]} unless every factor is regular, and degrees here "
-                f"range from {lo:.6g} to {hi:.6g}; use --matrix adjacency, or a Cartesian "
-                f"product for laplacian/signless"
-            )
-        d = deg.value(0)
-        if kind in ("normalized", "transition") and d == 0:
-            raise InputError(f"the {kind} matrix needs non-zero degrees; {node.label()} has degree 0")
-        return REGULAR_FORM[kind](d)
+                f"the {kind} spectrum of {node.label()} is not exact: {NON_EXACT_REASON[kind]} "
+                "unless every factor is regular; use --matrix adjacency, or a Cartesian product "
+                "for laplacian/signless")
+        if kind in ("normalized", "transition"):
+            with working():
+                zero = isinstance(d, fmpq) and d == 0
+                if zero or (not isinstance(d, fmpq) and as_ball(d).contains(0)):
+                    raise InputError(f"the {kind} matrix needs non-zero degrees; "
+                                     f"{node.label()} has degree 0")
+                if kind == "normalized" and not (d > 0):
+                    raise InputError(f"the normalized Laplacian needs positive degrees; "
+                                     f"{node.label()} has negative degree")
+        if isinstance(d, fmpq):
+            return REGULAR_FORM[kind](Fraction(int(d.p), int(d.q)))
+        with working():
+            table = {"adjacency": (fmpq(0), fmpq(1)), "laplacian": (d, fmpq(-1)),
+                     "signless": (d, fmpq(1)), "normalized": (fmpq(1), -1 / d),
+                     "transition": (fmpq(0), 1 / d)}
+            return table[kind]
 
     def _one_irregular(self, node: Product, kind: str) -> Spectrum | None:
-        """D -+ A of G o H with G one irregular factor and H regular of degree e, or None.
+        """D -+ A of G o H with G one irregular undirected factor and H regular of degree e.
 
-        With A_H triangularised (Schur), D -+ A becomes block triangular with one
-        n x n diagonal block per eigenvalue mu of A_H:
-        (a + b e) D_G + a e I -+ ((a + b mu) A_G + a mu I).  Its eigenvalues, taken
-        with mu's multiplicity, are the spectrum -- exact up to the eigensolver.
+        With A_H diagonalised, D -+ A becomes block diagonal with one n x n
+        block per eigenvalue mu of A_H: (a + b e) D_G + a e I -+ ((a + b mu) A_G
+        + a mu I), taken with mu's multiplicity.  Each block is symmetric; its
+        eigenvalues are certified by the residual bound of
+        :mod:`powerspec.factors.certify`, widened by the uncertainty of mu.
         """
         comb = node.comb
-        if comb.mode is None:
+        if comb.mode not in ("add", "mul") or node.directed:
             return None
         irregular = [i for i, (c, _) in enumerate(node.operands) if not self.is_regular(c)]
         if len(irregular) != 1:
@@ -251,138 +258,129 @@ class Engine:
         h = rest[0][0] if len(rest) == 1 and rest[0][1] == 1 else Product(comb, rest)
         if not self.fits(h, "adjacency"):
             return None
-        mu_sp = self.spectrum(h, "adjacency")
-        if mu_sp.is_polar or len(mu_sp) * g_node.factor.n > self.budget:
+        e = self.regular_degree(h)
+        if not isinstance(e, fmpq):
             return None
-        e = self.degrees(h).value(0)
+        mu_sp = self.spectrum(h, "adjacency")
         f = g_node.factor
-        d_g = np.diag(f.degrees(self.direction))
+        if not mu_sp.is_real or len(mu_sp) * f.n > self.budget:
+            return None
+        ef = float(Fraction(int(e.p), int(e.q)))
+        d_g = np.diag([float(x) for x in f.exact_degrees(self.direction)])
         a_g = f.adjacency.toarray()
+        a_norm = float(np.linalg.norm(a_g))
         sign = -1.0 if kind == "laplacian" else 1.0
-        a, b = comb.a, comb.b
+        a, b = float(comb.a), float(comb.b)
+        eye = np.eye(f.n)
         vals, mults = [], []
-        for mu, m in zip(mu_sp.values.tolist(), mu_sp.mult.tolist(), strict=True):
-            eye = np.eye(f.n)
-            block = (a + b * e) * d_g + a * e * eye + sign * ((a + b * mu) * a_g + a * mu * eye)
-            symmetric = not (f.directed or np.iscomplex(mu))
-            ev = np.linalg.eigvalsh(block) if symmetric else np.linalg.eigvals(block)
-            vals.append(ev)
-            mults.extend([int(m)] * f.n)
-        values = np.concatenate(vals)
-        scale = max(1.0, float(np.max(np.abs(values), initial=0.0)))
+        for mu, m, r in zip(mu_sp.real_midpoints().tolist(), mu_sp.mult.tolist(),
+                            mu_sp.radii().tolist(), strict=True):
+            block = (a + b * ef) * d_g + a * ef * eye + sign * ((a + b * mu) * a_g + a * mu * eye)
+            # float rounding of forming the block, the degrees and mu's own radius
+            extra = (r * (abs(b) * a_norm + abs(a)) + 8 * 2.0**-53 * float(np.linalg.norm(block))
+                     + 4 * 2.0**-53 * (abs(a) + abs(b) * abs(ef)) * float(np.max(np.abs(d_g))))
+            for v, _ in _residual_eigenvalues(block, extra):
+                vals.append(v)
+                mults.append(int(m))
         order = node.order
-        return Spectrum(values, mult_array(mults, order), order=order,
-                        atol=1e-12 * scale * max(1, f.n))
+        return Spectrum(to_balls(vals), mult_array(mults, order if isinstance(order, int) else None),
+                        order=order)
 
     # --------------------------------------------------------- combining
     def _combine(self, comb: Combination, parts: list[tuple[Spectrum, int]]) -> Spectrum:
-        mode = comb.mode
-        if mode is None:
-            return self._fold(comb, parts)
-        to_shift, to_factor = comb.to_s()
-        powered = [
-            power(sp.affine(to_shift, to_factor), k, mode, self.budget, self.limit)
-            for sp, k in parts
-        ]
-        for p in powered:
-            self._check(p)
-        result = reduce(lambda x, y: self._check(outer(x, y, mode, self.budget)), powered)
-        back_shift, back_factor = comb.from_s()
-        return result.affine(back_shift, back_factor)
-
-    def _fold(self, comb: Combination, parts: list[tuple[Spectrum, int]]) -> Spectrum:
-        # Non-associative mix: ((x1 o x2) o x3) o ... in the written order of the copies.
-        seq = [sp for sp, k in parts for _ in range(k)] if sum(k for _, k in parts) < 10**7 else None
-        if seq is None:
-            raise SizeLimitError("a left fold over 10^7 or more copies is beyond the exact engine")
-        acc = seq[0]
-        for nxt in seq[1:]:
-            acc = self._check(fold_outer(comb, acc, nxt, self.budget))
+        if comb.mode is None:
+            copies = sum(k for _, k in parts)
+            if copies > FOLD_MAX:
+                raise SizeLimitError(
+                    f"a non-associative mix is a left fold; {copies} copies exceed the cap of "
+                    f"{FOLD_MAX}")
+            seq = [sp for sp, k in parts for _ in range(k)]
+            return fold(seq, comb, self.budget, self.limit)
+        powered = [check_atoms(self._check(power(sp, k, comb, self.budget, self.limit)), self.limit)
+                   for sp, k in parts]
+        acc = powered[0]
+        for p in powered[1:]:
+            acc = self._check(check_atoms(combine(comb, acc, p, self.budget), self.limit))
         return acc
 
     def _check(self, sp: Spectrum) -> Spectrum:
-        if len(sp) > self.limit:
-            raise SizeLimitError(
-                f"an intermediate result has {len(sp)} distinct eigenvalues, over the limit "
-                f"of {self.limit}"
-            )
-        if len(sp) * sp.order.bit_length() > 8 * MAX_MULT_BYTES:
+        if len(sp) * bit_length(sp.order) > 8 * MAX_MULT_BYTES:
             raise SizeLimitError("the exact multiplicities would need more than 2 GiB")
         return sp
 
     def fits(self, node: Node, kind: str = "adjacency") -> bool:
         """True when the cheap bound says the exact spectrum fits the atom and memory limits."""
         b = self.bound(node, kind)
-        return b <= self.limit and b * node.order.bit_length() <= 8 * MAX_MULT_BYTES
+        return b <= self.limit and b * bit_length(node.order) <= 8 * MAX_MULT_BYTES
 
     # ------------------------------------------------------------- bounds
     def bound(self, node: Node, kind: str = "adjacency") -> int:
         """Cheap upper bound on the number of distinct eigenvalues (no merging assumed)."""
         _check_kind(kind)
+        return self._bound(node, kind)
+
+    def _bound(self, node: Node, kind: str) -> int:
         if isinstance(node, Leaf):
-            return len(self.spectrum(node, kind))
-        rule = MATRIX_RULES[kind](node.comb)
-        use = kind if rule is not None else "adjacency"
-        comb = rule if rule is not None else node.comb
-        # Work in log2 so that astronomically large powers cost nothing.
-        rs = [self.bound(child, use) for child, _ in node.operands]
+            if kind == "#degree":
+                return len(set(node.factor.exact_degrees(self.direction)))
+            return min(node.factor.n, len(self.spectrum(node, kind))) \
+                if node.factor.n <= 4000 else node.factor.n
+        if kind == "#degree":
+            rule, use = node.comb, "#degree"
+        else:
+            rule = MATRIX_RULES[kind](node.comb)
+            use = kind if rule is not None else "adjacency"
+            rule = rule if rule is not None else node.comb
+        rs = [self._bound(child, use) for child, _ in node.operands]
         total = 0.0
         for (child, k), r in zip(node.operands, rs, strict=True):
             child_bits = k * count_log2(child.order)
-            if comb.mode is None:
+            if rule.mode is None:
                 total += min(k * math.log2(max(r, 1)), child_bits)
-            elif r <= 1:
-                total += 0.0
-            else:
+            elif r > 1:
                 # log2 C(k + r - 1, r - 1) <= (r - 1) log2(k + r - 1)
                 total += min((r - 1) * math.log2(k + r - 1), child_bits)
         total = min(total, count_log2(node.order))
         if total > 62:
-            return BOUND_CAP  # far beyond any limit; the exact value is not needed
+            return BOUND_CAP
         exact = 1
         for (child, k), r in zip(node.operands, rs, strict=True):
-            rb = r**k if comb.mode is None else composition_count(k, r)
+            rb = r**k if rule.mode is None else composition_count(k, r)
             small = k * count_log2(child.order) <= 64
             exact *= min(rb, child.order**k) if small else rb
         return min(exact, node.order) if isinstance(node.order, int) else exact
 
 
-def fold_outer(comb: Combination, a: Spectrum, b: Spectrum, budget: int) -> Spectrum:
-    """Spectrum of the generalized product a(A(+)B) + b(A(x)B): values comb(x_i, y_j).
-
-    >>> x = Spectrum.from_values([1.0, 2.0])
-    >>> fold_outer(Combination(2.0, 1.0), x, x, 10).atoms()
-    [(5.0, 1), (8.0, 2), (12.0, 1)]
-    """
-    check_pairs(a, b, budget)
-    mult = outer_mult(a.mult, b.mult, a.order, b.order)
-    order = a.order * b.order
-    if not (a.is_polar or b.is_polar):
-        ma = float(np.max(np.abs(a.values), initial=0.0))
-        mb = float(np.max(np.abs(b.values), initial=0.0))
-        if abs(comb.a) * (ma + mb) + abs(comb.b) * ma * mb < LINEAR_MAX:
-            vals = comb(a.values[:, None], b.values[None, :]).ravel()
-            ea, eb = a.atol or 0.0, b.atol or 0.0
-            atol = abs(comb.a) * (ea + eb) + abs(comb.b) * (ea * mb + eb * ma + ea * eb)
-            atol += 1e-15 * float(np.max(np.abs(vals), initial=0.0))
-            return Spectrum(vals, mult, order=order, atol=atol)
-    la, ta = (x[:, None] for x in a.to_polar())
-    lb, tb = (x[None, :] for x in b.to_polar())
-    terms = []
-    for coef, (l_, t_) in ((comb.a, (la, ta)), (comb.a, (lb, tb)), (comb.b, polar_mul(la, ta, lb, tb))):
-        if coef != 0:
-            cl, ct = math.log(abs(coef)), 0.0 if coef > 0 else 0.5
-            terms.append(polar_mul(*np.broadcast_arrays(l_, t_), cl, ct))
-    l_acc, t_acc = terms[0]
-    for l_, t_ in terms[1:]:
-        l_acc, t_acc = polar_add(l_acc, t_acc, *np.broadcast_arrays(l_, t_))
-    l_acc, t_acc = np.broadcast_arrays(l_acc, t_acc)
-    return Spectrum.polar(np.ravel(l_acc), np.ravel(t_acc), mult, order=order)
+def _s_value(d: fmpq, shift: Fraction, factor: Fraction) -> fmpq:
+    return fmpq(shift.numerator, shift.denominator) + fmpq(factor.numerator, factor.denominator) * d
 
 
-def _real_range(sp: Spectrum) -> tuple[float, float]:
-    r = sp.real_parts()
-    return float(np.min(r)), float(np.max(r))
+def _combine_scalars(comb: Combination, kids: list[tuple[HP, int]]) -> HP:
+    """The rule applied to the copies of regular degrees: d_1^(o k_1) o d_2^(o k_2) o ..."""
+    shift, factor = comb.to_s()
+    with working():
+        sh = fmpq(shift.numerator, shift.denominator)
+        fa = fmpq(factor.numerator, factor.denominator)
+        if comb.mode == "add":
+            total = fmpq(0)
+            for d, k in kids:
+                total = total + d * k
+            return total
+        s = fmpq(1)
+        for d, k in kids:
+            base = sh + fa * d
+            s = s * _pow_hp(base, k)
+        return (s - sh) / fa
 
 
-__all__ = ["Leaf", "Product", "Node", "Engine", "fold_outer", "DEFAULT_LIMIT", "mult_array"]
+def _pow_hp(x: HP, k: int) -> HP:
+    """x ** k: exact while the result stays below 2**16384 bits, a certified ball beyond."""
+    if isinstance(x, fmpq):
+        bits = max(int(x.p).bit_length(), int(x.q).bit_length()) * k
+        if bits <= 1 << 14:
+            return x**k
+        x = arb(x)
+    return x**k
+
+
+__all__ = ["BOUND_CAP", "DEFAULT_LIMIT", "Engine", "Leaf", "Node", "Product", "affine"]

@@ -3,71 +3,84 @@
 Every product kind is a *combination rule* ``x o y = a(x + y) + b x y`` acting
 on eigenvalues (DESIGN §2): Cartesian (1, 0), direct (0, 1), strong (1, 1) and
 the generalized ``mix(a, b)``.  The same rule combines degrees (row sums), so
-one :class:`Combination` describes both.
+one :class:`Combination` describes both.  Coefficients are exact rationals.
 
 A rule with ``a`` in {0, 1} is associative and has a *linearization* ``s``
 turning it into plain addition (Cartesian: ``s = x``) or multiplication
-(``s = 1 + b x`` for a = 1, ``s = b x`` for a = 0).  Powers of such rules are
-computed in s-space; a rule with ``a`` outside {0, 1} is not associative and
-its powers are left folds ``((x1 o x2) o x3) o ...``.
+(``s = 1 + b x`` for a = 1, ``s = b x`` for a = 0); the extremes search and
+the limit laws use it.  Values themselves are always combined in x-space by
+the rule (so 1 + x never cancels small eigenvalues of strong products).  A
+rule with ``a`` outside {0, 1} is not associative and its powers are left
+folds ``((x1 o x2) o x3) o ...``.
 
 :data:`MATRIX_RULES` is the exactness table: for a matrix kind and a product's
 combination it returns the combination that the matrix kind's eigenvalues obey
-(exact), or ``None`` when the spectrum is exact only for regular operands.
-Adding a matrix kind is one entry here plus one entry in :data:`REGULAR_FORM`.
+(exact), or ``None`` when the spectrum follows from the factors' only for
+regular operands.  Adding a matrix kind is one entry here plus one entry in
+:data:`REGULAR_FORM` (and its factor-level matrix in
+:class:`~powerspec.factors.factor.Factor`).
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass
-
-import numpy as np
+from fractions import Fraction
 
 
 @dataclass(frozen=True)
 class Combination:
-    """The eigenvalue (and degree) rule ``x o y = a(x + y) + b x y``.
+    """The eigenvalue (and degree) rule ``x o y = a(x + y) + b x y``, a and b exact.
 
-    >>> CARTESIAN(2.0, 3.0), DIRECT(2.0, 3.0), STRONG(2.0, 3.0)
-    (5.0, 6.0, 11.0)
+    >>> CARTESIAN(2, 3), DIRECT(2, 3), STRONG(2, 3)
+    (Fraction(5, 1), Fraction(6, 1), Fraction(11, 1))
     """
 
-    a: float
-    b: float
+    a: Fraction
+    b: Fraction
+
+    def __post_init__(self):
+        object.__setattr__(self, "a", Fraction(self.a))
+        object.__setattr__(self, "b", Fraction(self.b))
 
     def __call__(self, x, y):
-        """Combine values elementwise (numpy broadcasting); exact up to float rounding."""
+        """Combine two scalars (ints, Fractions, floats, numpy arrays) by the rule."""
         return self.a * (x + y) + self.b * x * y
 
     @property
     def associative(self) -> bool:
-        """True when a is 0 or 1 (and the rule is not the constant zero)."""
-        return self.a in (0.0, 1.0) and not (self.a == 0 and self.b == 0)
+        """True when a is 0 or 1 (every such rule is associative)."""
+        return self.a in (0, 1)
 
     @property
     def mode(self) -> str | None:
-        """'add' or 'mul' -- how the linearization combines -- or None (left fold)."""
+        """'add', 'mul' (a = 0 or 1 with b != 0), 'zero' (a = b = 0) or None (left fold)."""
         if not self.associative:
             return None
-        return "add" if (self.a == 1 and self.b == 0) else "mul"
+        if self.b == 0:
+            return "add" if self.a == 1 else "zero"
+        return "mul"
 
-    def to_s(self) -> tuple[float, float]:
-        """(shift, factor) with s = shift + factor * x."""
+    def to_s(self) -> tuple[Fraction, Fraction]:
+        """(shift, factor) with s = shift + factor * x (the linearization)."""
         if self.mode == "add":
-            return 0.0, 1.0
+            return Fraction(0), Fraction(1)
         if self.a == 1:
-            return 1.0, self.b
-        return 0.0, self.b
+            return Fraction(1), self.b
+        return Fraction(0), self.b
 
-    def from_s(self) -> tuple[float, float]:
+    def from_s(self) -> tuple[Fraction, Fraction]:
         """(shift, factor) with x = shift + factor * s (inverse of :meth:`to_s`)."""
         shift, factor = self.to_s()
-        return -shift / factor, 1.0 / factor
+        return -shift / factor, 1 / factor
 
-    def identity(self) -> float:
-        """The s-space neutral element (0 for 'add', 1 for 'mul')."""
-        return 0.0 if self.mode == "add" else 1.0
+    def identity(self) -> Fraction | None:
+        """The neutral value e with x o e = x (0 for a = 1, 1/b for a = 0), None if there is none."""
+        if self.a == 1:
+            return Fraction(0)
+        if self.a == 0 and self.b != 0:
+            return 1 / self.b
+        return None
 
     def label(self) -> str:
         """Human name of the rule."""
@@ -77,13 +90,16 @@ class Combination:
         return f"mix({_num(self.a)}, {_num(self.b)})"
 
 
-def _num(x: float) -> str:
-    return str(int(x)) if float(x).is_integer() else repr(float(x))
+def _num(x: Fraction) -> str:
+    if x.denominator == 1:
+        return str(x.numerator)
+    f = float(x)
+    return repr(f) if Fraction(f) == x else f"{x.numerator}/{x.denominator}"
 
 
-CARTESIAN = Combination(1.0, 0.0)
-DIRECT = Combination(0.0, 1.0)
-STRONG = Combination(1.0, 1.0)
+CARTESIAN = Combination(1, 0)
+DIRECT = Combination(0, 1)
+STRONG = Combination(1, 1)
 
 PRODUCT_KINDS: dict[str, Combination] = {
     "cart": CARTESIAN,
@@ -108,7 +124,7 @@ MATRIX_RULES: dict[str, Callable[[Combination], Combination | None]] = {
     "laplacian": _additive_only,
     "signless": _additive_only,
     # normalized Laplacian: 1 - (1 - x)(1 - y) = x + y - xy
-    "normalized": _direct_only(Combination(1.0, -1.0)),
+    "normalized": _direct_only(Combination(1, -1)),
     "transition": _direct_only(DIRECT),
 }
 """matrix kind -> (product combination -> combination its eigenvalues obey, or None)."""
@@ -120,22 +136,16 @@ NON_EXACT_REASON: dict[str, str] = {
     "transition": "D^-1 A does not split over a sum of Kronecker terms",
 }
 
-REGULAR_FORM: dict[str, Callable[[float], tuple[float, float]]] = {
-    "adjacency": lambda d: (0.0, 1.0),
-    "laplacian": lambda d: (d, -1.0),
-    "signless": lambda d: (d, 1.0),
-    "normalized": lambda d: (1.0, -1.0 / d),
-    "transition": lambda d: (0.0, 1.0 / d),
+REGULAR_FORM: dict[str, Callable[[Fraction], tuple[Fraction, Fraction]]] = {
+    "adjacency": lambda d: (Fraction(0), Fraction(1)),
+    "laplacian": lambda d: (d, Fraction(-1)),
+    "signless": lambda d: (d, Fraction(1)),
+    "normalized": lambda d: (Fraction(1), -1 / d),
+    "transition": lambda d: (Fraction(0), 1 / d),
 }
-"""For a d-regular graph the matrix kind is shift + factor * A: (shift, factor)."""
+"""For a d-regular graph the matrix kind is shift + factor * A: (shift, factor), exact."""
 
 MATRIX_KINDS = tuple(MATRIX_RULES)
 
-
-def combine_values(c: Combination, x: np.ndarray, y: np.ndarray) -> np.ndarray:
-    """All pairwise combinations x_i o y_j, flattened row-major.
-
-    >>> combine_values(CARTESIAN, np.array([0.0, 1.0]), np.array([10.0])).tolist()
-    [10.0, 11.0]
-    """
-    return c(x[:, None], y[None, :]).ravel()
+__all__ = ["CARTESIAN", "DIRECT", "MATRIX_KINDS", "MATRIX_RULES", "NON_EXACT_REASON", "PRODUCT_KINDS",
+           "REGULAR_FORM", "STRONG", "Combination"]

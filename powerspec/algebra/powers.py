@@ -1,22 +1,21 @@
-"""Exact combination of spectra: pairwise products and k-th powers.
+"""Exact combination of spectra: pairwise products, k-th powers and left folds.
 
-All functions work in *s-space* (see :mod:`powerspec.products`): the
-combination is either plain addition (``mode='add'``) or multiplication
-(``mode='mul'``).  Multiplicities are exact integers throughout.
+Spectra combine by a :class:`~powerspec.algebra.kinds.Combination` rule
+applied to their atoms (in the exact or the certified-ball domain, see
+:mod:`powerspec.algebra.rules`); multiplicities are exact integers throughout.
 
-Two strategies compute ``S^k``:
+Two strategies compute the k-th power of an associative rule:
 
 * **compositions** -- every atom of the power is indexed by a composition
-  c of k into r parts (r = distinct atoms of S); its value is sum c_i s_i (or
-  prod s_i^c_i) and its multiplicity the multinomial (k; c) * prod m_i^c_i.
-  Cost: the number of compositions, C(k + r - 1, r - 1); exact binomials come
-  from cached Pascal rows.
+  c of k into r parts (r = distinct atoms of S); its value is
+  x_1^(o c_1) o ... o x_r^(o c_r) and its multiplicity the multinomial
+  (k; c) * prod m_i^c_i.  Cost: the number of compositions, C(k + r - 1, r - 1);
+  exact binomials come from cached Pascal rows.
 * **squaring** -- binary exponentiation with merging after every step.  Its
   cost follows the number of *distinct* values of the intermediate powers,
-  which is far below the composition count when eigenvalues are
-  commensurable (cycles, integer spectra).
+  far below the composition count when eigenvalues are commensurable.
 
-Every step checks its pair count against a budget *before* allocating, and
+Every step checks its pair count against a budget *before* allocating and
 raises :class:`~powerspec.errors.SizeLimitError` instead of starting work
 that would not fit.
 """
@@ -26,16 +25,20 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from flint import fmpq
 
+from powerspec.algebra.kinds import Combination
+from powerspec.algebra.rules import apply, pairs, self_power, unify
 from powerspec.errors import SizeLimitError
-from powerspec.spectra.measures import LINEAR_MAX, Spectrum, mult_array, outer_mult, polar_add, polar_mul
+from powerspec.numbers.balls import Balls
+from powerspec.numbers.convert import rationals_to_balls, to_balls
+from powerspec.numbers.hp import HP, working
+from powerspec.numbers.rationals import Rationals
+from powerspec.spectra.spectrum import Spectrum, mult_array
 
-_LOG_LINEAR_MAX = math.log(LINEAR_MAX)
-
-
-def identity(mode: str) -> Spectrum:
-    """The one-vertex spectrum neutral for the mode ({0} for add, {1} for mul)."""
-    return Spectrum.from_values([0.0 if mode == "add" else 1.0])
+_INT64_SAFE = 2**62
+HP_POWERS = 200_000
+"""Most atom powers computed at high precision in one composition enumeration."""
 
 
 def composition_count(k: int, r: int) -> int:
@@ -51,79 +54,127 @@ def composition_count(k: int, r: int) -> int:
 
 def check_pairs(a: Spectrum, b: Spectrum, budget: int) -> None:
     """Raise SizeLimitError before combining when len(a) * len(b) exceeds the pair budget."""
-    pairs = len(a) * len(b)
-    if pairs > budget:
+    n = len(a) * len(b)
+    if n > budget:
         raise SizeLimitError(
-            f"combining {len(a)} by {len(b)} distinct eigenvalues needs {pairs} pairs, "
-            f"more than the budget of {budget}"
-        )
+            f"combining {len(a)} by {len(b)} distinct eigenvalues needs {n} pairs, "
+            f"more than the budget of {budget}")
 
 
-def outer(a: Spectrum, b: Spectrum, mode: str, budget: int) -> Spectrum:
-    """The spectrum {a_i + b_j} (add) or {a_i * b_j} (mul), merged; exact multiplicities.
+def _vec(sp: Spectrum):
+    v = sp.values
+    if isinstance(v, (Rationals, Balls)):
+        return v
+    return sp.as_balls()
 
-    >>> outer(Spectrum.from_values([1, -1]), Spectrum.from_values([1, -1]), "add", 100).atoms()
+
+def outer_mult(a: np.ndarray, b: np.ndarray, total: int) -> np.ndarray:
+    """Flattened products a_i * b_j, exact (int64 while the total fits, else Python ints)."""
+    if a.dtype != object and b.dtype != object and total < _INT64_SAFE:
+        return np.multiply.outer(a, b).ravel()
+    return np.multiply.outer(_obj(a), _obj(b)).ravel()
+
+
+def _obj(m: np.ndarray) -> np.ndarray:
+    if m.dtype == object:
+        return m
+    out = np.empty(m.shape, dtype=object)
+    out[:] = [int(x) for x in m.tolist()]
+    return out
+
+
+def combine(comb: Combination, a: Spectrum, b: Spectrum, budget: int) -> Spectrum:
+    """The spectrum {x_i o y_j} with multiplicities m_i n_j, merged.
+
+    >>> from powerspec.algebra.kinds import CARTESIAN
+    >>> x = Spectrum.from_values([1, -1])
+    >>> combine(CARTESIAN, x, x, 100).atoms()
     [(-2.0, 1), (0.0, 2), (2.0, 1)]
     """
     check_pairs(a, b, budget)
-    mult = outer_mult(a.mult, b.mult, a.order, b.order)
     order = a.order * b.order
-    # Sums add absolute rounding errors; products of doubles err only relatively.
-    atol = (a.atol or 0.0) + (b.atol or 0.0) if mode == "add" else 0.0
-    linear_ok = not (a.is_polar or b.is_polar)
-    if linear_ok:
-        ma = float(np.max(np.abs(a.values), initial=0.0))
-        mb = float(np.max(np.abs(b.values), initial=0.0))
-        bound = ma + mb if mode == "add" else ma * mb
-        linear_ok = bound < LINEAR_MAX
-    if linear_ok:
-        av, bv = a.values, b.values
-        vals = (np.add.outer(av, bv) if mode == "add" else np.multiply.outer(av, bv)).ravel()
-        return Spectrum(vals, mult, order=order, atol=atol)
-    la, ta = a.to_polar()
-    lb, tb = b.to_polar()
-    op = polar_add if mode == "add" else polar_mul
-    l2, t2 = op(la[:, None], ta[:, None], lb[None, :], tb[None, :])
-    return Spectrum.polar(np.ravel(l2), np.ravel(t2), mult, order=order, atol=atol)
+    x, y = pairs(*unify(_vec(a), _vec(b)))
+    return Spectrum(apply(comb, x, y), outer_mult(a.mult, b.mult, order), order=order)
 
 
-def power(s: Spectrum, k: int, mode: str, budget: int, limit: int) -> Spectrum:
-    """The k-fold combination S o S o ... o S (k >= 1) in the given mode, exact multiplicities.
+def power(s: Spectrum, k: int, comb: Combination, budget: int, limit: int) -> Spectrum:
+    """The k-fold combination S o S o ... o S (k >= 1), exact multiplicities.
 
-    Uses compositions when their number is within ``budget``, squaring with
-    merging otherwise; raises SizeLimitError when either would exceed
-    ``budget`` pairs or a merged intermediate exceeds ``limit`` atoms.
+    Associative rules use compositions when their number is within ``budget``,
+    squaring with merging otherwise; other rules are left folds (k - 1 steps).
+    Raises SizeLimitError when a step would exceed ``budget`` pairs or a merged
+    intermediate ``limit`` atoms.
 
-    >>> power(Spectrum.from_values([1, -1]), 4, "add", 10**6, 10**6).atoms()
+    >>> from powerspec.algebra.kinds import CARTESIAN
+    >>> power(Spectrum.from_values([1, -1]), 4, CARTESIAN, 10**6, 10**6).atoms()
     [(-4.0, 1), (-2.0, 4), (0.0, 6), (2.0, 4), (4.0, 1)]
     """
     if k == 1:
         return s
+    if comb.mode == "zero":
+        return Spectrum.from_values([0.0], [s.order**k])
+    if comb.mode is None:
+        return fold([s] * k, comb, budget, limit)
+    if len(s) == 1:
+        v = self_power(comb, _vec(s), np.array([k]))
+        return Spectrum(v, mult_array([_pow_count(s.mult[0], k)]), order=s.order**k)
     if composition_count(k, len(s)) <= budget:
-        return _compositions(s, k, mode)
-    return _squaring(s, k, mode, budget, limit)
+        return _compositions(s, k, comb)
+    return _squaring(s, k, comb, budget, limit)
 
 
-def _squaring(s: Spectrum, k: int, mode: str, budget: int, limit: int) -> Spectrum:
+def hp_self_power(comb: Combination, x: HP, c: int) -> HP:
+    """x o x o ... o x (c copies; c = 0 gives the identity) at high precision.
+
+    Cartesian c x; a = 0: b^(c-1) x^c; a = 1: ((1 + b x)^c - 1)/b, where the
+    subtraction of 1 is done at 160 bits, far below the values' own radii.
+
+    >>> from flint import fmpq
+    >>> from powerspec.algebra.kinds import STRONG
+    >>> hp_self_power(STRONG, fmpq(2), 3)
+    26
+    """
+    a, b = comb.a, comb.b
+    with working():
+        if comb.mode == "add":
+            return x * c
+        bq = fmpq(b.numerator, b.denominator)
+        if a == 0:
+            return (bq * x) ** c / bq if c else 1 / bq
+        return ((1 + bq * x) ** c - 1) / bq
+
+
+def _pow_count(m, k: int):
+    return int(m) ** k
+
+
+def fold(parts: list[Spectrum], comb: Combination, budget: int, limit: int) -> Spectrum:
+    """Left fold ((S1 o S2) o S3) o ... with merging after every step."""
+    acc = parts[0]
+    for nxt in parts[1:]:
+        acc = check_atoms(combine(comb, acc, nxt, budget), limit)
+    return acc
+
+
+def check_atoms(s: Spectrum, limit: int) -> Spectrum:
+    """Raise SizeLimitError when a merged intermediate has more than ``limit`` atoms."""
+    if len(s) > limit:
+        raise SizeLimitError(
+            f"an intermediate result already has {len(s)} distinct eigenvalues, over the "
+            f"limit of {limit}")
+    return s
+
+
+def _squaring(s: Spectrum, k: int, comb: Combination, budget: int, limit: int) -> Spectrum:
     result: Spectrum | None = None
     base = s
     while True:
         if k & 1:
-            result = base if result is None else outer(result, base, mode, budget)
-            _check_atoms(result, limit)
+            result = base if result is None else check_atoms(combine(comb, result, base, budget), limit)
         k >>= 1
         if not k:
             return result
-        base = outer(base, base, mode, budget)
-        _check_atoms(base, limit)
-
-
-def _check_atoms(s: Spectrum, limit: int) -> None:
-    if len(s) > limit:
-        raise SizeLimitError(
-            f"an intermediate power already has {len(s)} distinct eigenvalues, over the "
-            f"limit of {limit}"
-        )
+        base = check_atoms(combine(comb, base, base, budget), limit)
 
 
 class _Pascal:
@@ -147,40 +198,34 @@ class _Pascal:
         return r
 
 
-def _compositions(s: Spectrum, k: int, mode: str) -> Spectrum:
+def _compositions(s: Spectrum, k: int, comb: Combination) -> Spectrum:
     r = len(s)
     order = s.order**k
-    big = order >= 2**62
+    big = order >= _INT64_SAFE
     pascal = _Pascal(big)
-    polar = s.is_polar
-    if not polar:
-        top = float(np.max(np.abs(s.values), initial=0.0))
-        polar = (mode == "add" and k * top >= LINEAR_MAX) or (
-            mode == "mul" and top > 0 and k * math.log(top) >= _LOG_LINEAR_MAX
-        )
-    if polar:
-        la_s, ta_s = s.to_polar()
+    vec = _vec(s)
+    # x_i^(o c) for every atom i and count c = 0..k: at high precision when the atoms
+    # are known there (one rounding per power instead of one per multiplication)
+    if s.hp is not None and r * (k + 1) <= HP_POWERS:
+        powers = to_balls([hp_self_power(comb, x, c) for x in s.hp for c in range(k + 1)])
+    else:
+        counts = np.tile(np.arange(k + 1, dtype=np.int64), r)
+        powers = self_power(comb, vec.take(np.repeat(np.arange(r), k + 1)), counts)
     rem = np.array([k], dtype=np.int64)
     w = mult_array([1], order)
-    if polar:
-        acc_l = np.array([-np.inf if mode == "add" else 0.0])
-        acc_t = np.zeros(1)
-    else:
-        acc = np.array([0.0 if mode == "add" else 1.0], dtype=s.values.dtype)
+    acc = None
     for i in range(r):
         if i == r - 1:
             c = rem.copy()
             src = np.arange(rem.size)
         else:
-            counts = rem + 1
-            src = np.repeat(np.arange(rem.size), counts)
-            offsets = np.cumsum(counts) - counts
-            c = np.arange(src.size, dtype=np.int64) - np.repeat(offsets, counts)
+            cnt = rem + 1
+            src = np.repeat(np.arange(rem.size), cnt)
+            offsets = np.cumsum(cnt) - cnt
+            c = np.arange(src.size, dtype=np.int64) - np.repeat(offsets, cnt)
         n_before = rem[src]
         w = w[src]
         if i < r - 1:
-            # Exact binomial C(rem, c) from cached Pascal rows, one row per distinct rem
-            # (the last part takes all that remains, so its binomial is 1).
             binom = np.empty(src.size, dtype=object if big else np.int64)
             for n in np.unique(n_before):
                 sel = n_before == n
@@ -192,22 +237,12 @@ def _compositions(s: Spectrum, k: int, mode: str) -> Spectrum:
             pw = mult_array([m_i**j for j in range(cmax + 1)], order)
             w = w * pw[c]
         rem = n_before - c
-        if polar:
-            acc_l, acc_t = acc_l[src], acc_t[src]
-            with np.errstate(invalid="ignore"):
-                li = np.where(c == 0, 0.0, c * la_s[i])
-            if mode == "mul":
-                acc_l, acc_t = polar_mul(acc_l, acc_t, li, np.mod(c * ta_s[i], 1.0))
-            else:
-                # c * s_i in polar form, then add.
-                with np.errstate(divide="ignore"):
-                    cl = np.where(c == 0, -np.inf, np.log(np.maximum(c, 1)) + la_s[i])
-                acc_l, acc_t = polar_add(acc_l, acc_t, cl, np.full(c.size, ta_s[i]))
-        else:
-            acc = acc[src]
-            vi = s.values[i]
-            acc = acc + c * vi if mode == "add" else acc * np.power(vi, c)
-    atol = k * (s.atol or 0.0) if mode == "add" else 0.0
-    if polar:
-        return Spectrum.polar(acc_l, acc_t, w, order=order, atol=atol)
-    return Spectrum(acc, w, order=order, atol=atol)
+        term = powers.take(i * (k + 1) + c)
+        acc = term if acc is None else apply(comb, acc.take(src), term)
+    if isinstance(acc, Rationals) and acc.bits() > 4096:
+        acc = rationals_to_balls(acc)
+    return Spectrum(acc, w, order=order)
+
+
+__all__ = ["check_atoms", "check_pairs", "combine", "composition_count", "fold", "outer_mult",
+           "power"]

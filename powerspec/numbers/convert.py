@@ -34,13 +34,19 @@ def _scaled_arb(x: arb) -> tuple[float, float, int]:
             return 0.0, 0.0, 0
         b = rm.bit_length()
         return 0.0, math.ldexp(float(rm), -b) * (1 + 2.0**-50), re_ + b
-    b = m.bit_length()
+    b = abs(m).bit_length()
     if b <= 53:
-        mant, err = float(m) / 2.0**b, 0.0
+        mant, err = math.ldexp(float(m), -b), 0.0
     else:
-        top = m >> (b - 53)
-        mant = float(top) / 2.0**53
-        err = 2.0**-53 if (top << (b - 53)) != m else 0.0
+        # round the midpoint to 53 bits and keep the exact remainder as radius
+        shift = b - 53
+        top = m >> shift
+        rem = m - (top << shift)
+        if 2 * rem >= (1 << shift):
+            top += 1
+            rem -= 1 << shift
+        mant = math.ldexp(float(top), -53)
+        err = math.ldexp(float(abs(rem)) * (1 + 2.0**-52), -b) if rem else 0.0
     exp = e + b
     rad = 0.0
     if rm:

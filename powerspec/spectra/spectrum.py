@@ -41,6 +41,8 @@ from powerspec.numbers.rationals import Rationals
 from powerspec.spectra.merge import merge_balls, merge_rationals
 
 _INT64_SAFE = 2**62
+HP_KEEP = 4096
+"""Factor spectra with at most this many atoms keep their high-precision values."""
 
 
 class HPValues:
@@ -108,9 +110,9 @@ def _overlap(x: HP, y: HP) -> bool:
 class Spectrum:
     """A finite multiset of eigenvalues: certified atoms with exact multiplicities."""
 
-    __slots__ = ("values", "mult", "_order")
+    __slots__ = ("values", "mult", "_order", "hp")
 
-    def __init__(self, values: Values, mult, *, order=None, merged: bool = False):
+    def __init__(self, values: Values, mult, *, order=None, merged: bool = False, hp=None):
         mult = mult if isinstance(mult, np.ndarray) else mult_array(mult)
         if mult.dtype != object:
             mult = mult.astype(np.int64, copy=False)
@@ -119,6 +121,7 @@ class Spectrum:
         self.values = values
         self.mult = mult
         self._order = order
+        self.hp = hp  # the atoms at high precision, when known (factor spectra)
         if not merged:
             self._merge()
 
@@ -138,9 +141,17 @@ class Spectrum:
 
     @classmethod
     def from_hp(cls, values: Sequence[HP], mult: Sequence[int]) -> Spectrum:
-        """Spectrum from high-precision scalars: exact rationals when all are, else balls."""
+        """Spectrum from high-precision scalars: exact rationals when all are, else balls.
+
+        Short lists are merged at high precision and keep it in :attr:`hp`
+        (used for precise powers and extremes).
+        """
         if all(isinstance(v, fmpq) for v in values):
             return cls(Rationals.from_fractions(values), mult_array(mult))
+        if len(values) <= HP_KEEP:
+            merged, m = _merge_hp(HPValues(values), mult_array(mult))
+            balls = to_balls(merged.items).real_if_possible()
+            return cls(balls, m, merged=True, hp=tuple(merged.items))
         return cls(to_balls(values).real_if_possible(), mult_array(mult))
 
     @classmethod
@@ -357,12 +368,33 @@ def _take(v: Values, idx) -> Values:
 
 
 def _merge_hp(v: HPValues, m: np.ndarray) -> tuple[HPValues, np.ndarray]:
-    """Sort by midpoint and merge overlapping high-precision balls (small lists only)."""
+    """Sort by midpoint and merge overlapping high-precision balls.
+
+    Real lists: one sweep with the running maximum of upper endpoints (the
+    clusters are contiguous in midpoint order).  Complex lists: pairwise.
+    """
     order = sorted(range(len(v)), key=lambda i: _sort_key_hp(v.items[i]))
     items = [v.items[i] for i in order]
     mults = [m[i] for i in order]
     out_i: list[HP] = []
     out_m: list = []
+    if all(is_real(x) for x in items):
+        with working():
+            run = None
+            for x, k in zip(items, mults, strict=True):
+                r = real_part(x)
+                lo, hi = (r, r) if isinstance(r, fmpq) else (r.lower(), r.upper())
+                if run is not None and not (lo > run):
+                    last = out_i[-1]
+                    out_i[-1] = last if (isinstance(last, fmpq) and isinstance(r, fmpq) and last == r) \
+                        else _real_union(last, r)
+                    out_m[-1] = out_m[-1] + k
+                    run = hi if hi > run else run
+                else:
+                    out_i.append(r)
+                    out_m.append(k)
+                    run = hi
+        return HPValues(out_i), mult_array(out_m)
     for x, k in zip(items, mults, strict=True):
         hit = next((j for j in range(len(out_i)) if _overlap(out_i[j], x)), None)
         if hit is None:
@@ -370,9 +402,7 @@ def _merge_hp(v: HPValues, m: np.ndarray) -> tuple[HPValues, np.ndarray]:
             out_m.append(k)
         else:
             with working():
-                a, b = out_i[hit], x
-                out_i[hit] = a if (isinstance(a, fmpq) and a == b) else as_acb(a).union(as_acb(b)) \
-                    if not (is_real(a) and is_real(b)) else _real_union(a, b)
+                out_i[hit] = as_acb(out_i[hit]).union(as_acb(x))
             out_m[hit] = out_m[hit] + k
     order = sorted(range(len(out_i)), key=lambda i: _sort_key_hp(out_i[i]))
     return HPValues([out_i[i] for i in order]), mult_array([out_m[i] for i in order])
