@@ -1,349 +1,387 @@
-"""The expression language: text -> syntax tree -> expression nodes.
+"""The expression language: text -> syntax tree -> expression nodes ready for the engine.
 
-Grammar (DESIGN §4), parsed by a small recursive-descent parser (no eval)::
+The syntax (tokens, parser, the grammar in full) is in
+:mod:`~powerspec.algebra.grammar_syntax`; this module builds nodes from it.
 
-    expression := call
-    call       := NAME "(" [argument ("," argument)*] ")"
-    argument   := term ["^" exponent]
-    term       := call | NUMBER | STRING
-    exponent   := INTEGER | NAME          (a NAME is a symbolic power)
+Functions (DESIGN §4, the textbook notation):
 
-Product functions -- ``cart``, ``direct``, ``strong`` and ``mix(a, b, ...)``
--- take one or more graph operands; inside them ``G^k`` means k copies of G.
-Factor functions build leaves: ``P(n)``, ``C(n)``, ``K(n)``,
-``K(1, n)``, ``K(m, n)``, ``dicycle(n)``, ``motif()``,
-``load("file")`` (``load("file", "directed")`` for a directed edge list),
-``scale(c, G)`` and ``loops(c, G)``.  Every error names the column.
+* products -- ``cart(G, ...)``, ``direct(G, ...)``, ``strong(G, ...)`` and
+  ``mix(a, b, G, ...)`` (a·Cartesian + b·direct; for a outside {0, 1} it is
+  not associative and is evaluated as a left fold); inside them ``G^k`` means
+  k copies of G, 1 <= k <= 10^18;
+* factors -- ``P(n)`` path, ``C(n)`` cycle, ``K(n)`` complete graph,
+  ``K(m, n)`` complete bipartite graph (the star is ``K(1, n)``), ``J(n)``
+  all-ones matrix, ``dicycle(n)`` or ``dicycle(n, w=[w0, ..., w(n-1)])``
+  directed cycle with arc weights, ``motif()`` the shipped demo motif,
+  ``load("file")`` (``load("file", "directed")`` for a directed edge list),
+  ``scale(c, G)`` and ``loops(c, G)``.
+
+Numbers may be fractions (``1/50``, ``-3/4``).  Every number is read exactly
+(an ``int``, or a :class:`fractions.Fraction`), checked against the ranges of
+:mod:`~powerspec.algebra.limits` on its exact value, and handed to the factor
+layer as the nearest double (``float(Fraction)`` rounds correctly): 1/3 becomes
+0.333..., not a symbolic third.
+
+Work that grows with the written text is removed while building: equal
+operands (same text, blanks ignored) are merged into powers -- all of them in
+``cart``, ``direct``, ``strong`` and ``mix(a, b)`` with a in {0, 1}, which are
+associative and commutative up to isomorphism, and only adjacent ones in any
+other ``mix``, whose left fold depends on the order -- so
+``cart(C(5), C(5), P(3), C(5))`` is ``cart(C(5)^3, P(3))`` and echoes so; an
+equal sub-expression is built once.  A left fold over more than
+:data:`~powerspec.algebra.limits.MAX_FOLD_COPIES` copies is refused.  Every
+error names the column; an unknown name gets the closest known one.
 """
 
 from __future__ import annotations
 
-import re
-from dataclasses import dataclass
+import difflib
 from pathlib import Path
 
 from powerspec.algebra.engine import Leaf, Node, Product
+from powerspec.algebra.grammar_syntax import Call, Kw, Name, Num, NumList, Pow, Str, parse_syntax
 from powerspec.algebra.kinds import PRODUCT_KINDS, Combination
-from powerspec.errors import ExpressionError, PowerspecError
+from powerspec.algebra.limits import (
+    MAX_COPIES,
+    MAX_FACTORS,
+    MAX_FAMILY_ENTRIES,
+    MAX_FOLD_COPIES,
+    MAX_OPERANDS,
+    ExpressionLimitError,
+    check_copies,
+    check_real,
+    echo,
+)
+from powerspec.errors import ExpressionError, FactorFileError, PowerspecError
 from powerspec.factors import families
 from powerspec.factors.factor import Factor
 from powerspec.factors.readers import load
 
-# ---------------------------------------------------------------- syntax
-
-
-@dataclass(frozen=True)
-class Call:
-    """``name(args...)`` at 1-based column ``col``."""
-
-    name: str
-    args: tuple
-    col: int
-
-
-@dataclass(frozen=True)
-class Num:
-    """A numeric literal."""
-
-    value: float | int
-    text: str
-    col: int
-
-
-@dataclass(frozen=True)
-class Str:
-    """A quoted string literal."""
-
-    value: str
-    col: int
-
-
-@dataclass(frozen=True)
-class Name:
-    """A bare name (only meaningful as a symbolic exponent)."""
-
-    name: str
-    col: int
-
-
-@dataclass(frozen=True)
-class Pow:
-    """``base ^ exponent`` -- k copies of ``base`` inside a product function."""
-
-    base: object
-    exponent: Num | Name
-    col: int
-
-
-_TOKEN = re.compile(
-    r"""
-    (?P<ws>\s+)
-  | (?P<num>[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)
-  | (?P<name>[A-Za-z_][A-Za-z_0-9]*)
-  | (?P<str>"[^"]*"|'[^']*')
-  | (?P<punct>[(),^])
-    """,
-    re.VERBOSE,
-)
-
-
-def _tokens(text: str) -> list[tuple[str, str, int]]:
-    out = []
-    pos = 0
-    while pos < len(text):
-        m = _TOKEN.match(text, pos)
-        if not m:
-            ch = text[pos]
-            if ch in "\"'":
-                raise ExpressionError("unterminated string", pos + 1)
-            raise ExpressionError(f"unexpected character {ch!r}", pos + 1)
-        kind = m.lastgroup
-        if kind != "ws":
-            out.append((kind, m.group(), pos + 1))
-        pos = m.end()
-    out.append(("end", "", len(text) + 1))
-    return out
-
-
-class _Parser:
-    def __init__(self, text: str):
-        self.toks = _tokens(text)
-        self.i = 0
-
-    def peek(self):
-        return self.toks[self.i]
-
-    def take(self, kind=None, value=None, what=""):
-        tok = self.toks[self.i]
-        if (kind and tok[0] != kind) or (value and tok[1] != value):
-            found = "the end of the expression" if tok[0] == "end" else repr(tok[1])
-            raise ExpressionError(f"expected {what or value or kind}, found {found}", tok[2])
-        self.i += 1
-        return tok
-
-    def expression(self):
-        tok = self.peek()
-        if tok[0] != "name":
-            self.take("name", what="a function such as cart(...) or C(5)")
-        node = self.call()
-        if self.peek()[0] == "punct" and self.peek()[1] == "^":
-            raise ExpressionError(
-                "a power G^k is only meaningful inside a product function: "
-                "write cart(G^k), direct(G^k), strong(G^k) or mix(a, b, G^k)",
-                self.peek()[2],
-            )
-        end = self.peek()
-        if end[0] != "end":
-            raise ExpressionError(f"unexpected {end[1]!r} after the expression", end[2])
-        return node
-
-    def call(self):
-        kind, name, col = self.take("name", what="a function name")
-        nxt = self.peek()
-        if not (nxt[0] == "punct" and nxt[1] == "("):
-            raise ExpressionError(f"expected '(' after {name}", nxt[2])
-        self.take("punct", "(")
-        args = []
-        if not (self.peek()[0] == "punct" and self.peek()[1] == ")"):
-            args.append(self.argument())
-            while self.peek()[0] == "punct" and self.peek()[1] == ",":
-                self.take("punct", ",")
-                args.append(self.argument())
-        self.take("punct", ")", what="',' or ')'")
-        return Call(name, tuple(args), col)
-
-    def argument(self):
-        kind, text, col = self.peek()
-        if kind == "name":
-            if self.toks[self.i + 1][1] == "(":
-                term = self.call()
-            else:
-                self.i += 1
-                term = Name(text, col)
-        elif kind == "num":
-            self.i += 1
-            term = Num(_number(text, col), text, col)
-        elif kind == "str":
-            self.i += 1
-            term = Str(text[1:-1], col)
-        else:
-            found = "the end of the expression" if kind == "end" else repr(text)
-            raise ExpressionError(f"expected an argument, found {found}", col)
-        if self.peek()[0] == "punct" and self.peek()[1] == "^":
-            _, _, pcol = self.take("punct", "^")
-            k, ktext, kcol = self.peek()
-            if k == "num":
-                self.i += 1
-                exp = Num(_number(ktext, kcol), ktext, kcol)
-            elif k == "name":
-                self.i += 1
-                exp = Name(ktext, kcol)
-            else:
-                raise ExpressionError("expected a power after '^'", kcol)
-            term = Pow(term, exp, pcol)
-        return term
-
-
-def _number(text: str, col: int) -> float | int:
-    try:
-        if re.fullmatch(r"[+-]?\d+", text):
-            return int(text)
-        return float(text)
-    except ValueError as exc:  # pragma: no cover - the regex only admits numbers
-        raise ExpressionError(f"bad number {text!r}", col) from exc
-
-
-def parse_syntax(text: str) -> Call:
-    """Parse expression text into a syntax tree (no evaluation).
-
-    >>> parse_syntax("cart(C(4)^2)").name
-    'cart'
-    """
-    if not isinstance(text, str) or not text.strip():
-        raise ExpressionError("the expression is empty; try e.g. 'cart(C(10)^6)'", 1)
-    return _Parser(text).expression()
-
-
-# -------------------------------------------------------------- building
-
-_FACTOR_FUNCS = {
-    "P": (families.P, ("n",)),
-    "C": (families.C, ("n",)),
-    "K": (families.K, ("m", "n")),
-    "J": (families.J, ("n",)),
-    "dicycle": (families.dicycle, ("n",)),
-    "motif": (families.motif, ()),
+SIGNATURES: dict[str, str] = {
+    "cart": "cart(G, ...)", "direct": "direct(G, ...)", "strong": "strong(G, ...)",
+    "mix": "mix(a, b, G, ...)", "P": "P(n)", "C": "C(n)", "K": "K(n) or K(m, n)", "J": "J(n)",
+    "dicycle": "dicycle(n, w=[...])", "motif": "motif()", "load": 'load("file")',
+    "scale": "scale(c, G)", "loops": "loops(c, G)",
 }
-_PRODUCT_FUNCS = (*PRODUCT_KINDS, "mix")
-FUNCTIONS = (*_PRODUCT_FUNCS, *_FACTOR_FUNCS, "load", "scale", "loops")
+"""How each function of the language is called."""
+
+FUNCTIONS = tuple(SIGNATURES)
 """Every function name the expression language knows."""
+
+_FACTOR_FUNCS = {"P": families.P, "C": families.C, "K": families.K, "J": families.J,
+                 "dicycle": families.dicycle, "motif": families.motif}
+_PRODUCT_FUNCS = (*PRODUCT_KINDS, "mix")
+
+# Words people write for a factor or a product, and the notation to use instead.
+_HINTS = (("bipartite", "K(m, n)"), ("star", "K(1, n)"), ("path", "P(n)"),
+          ("directed", "dicycle(n, w=[...])"), ("cycle", "C(n)"), ("complete", "K(n)"),
+          ("ones", "J(n)"), ("clique", "K(n)"), ("cartesian", "cart"), ("tensor", "direct"),
+          ("kronecker", "direct"), ("file", 'load("file")'), ("read", 'load("file")'))
+
+_POWER_OUTSIDE = ("a power G^k is only meaningful inside a product function: "
+                  "write cart(G^k), direct(G^k), strong(G^k) or mix(a, b, G^k)")
+
+
+class ExpressionFileError(ExpressionError, FactorFileError):
+    """A ``load("...")`` in an expression failed: a FactorFileError that knows its column."""
+
+
+def suggest(name: str) -> str | None:
+    """The closest known function to an unknown ``name`` (as it is called), or None.
+
+    >>> suggest("p"), suggest("cycle"), suggest("stong"), suggest("xyzzy")
+    ('P(n)', 'C(n)', 'strong(G, ...)', None)
+    """
+    low = name.lower()
+    for f in FUNCTIONS:
+        if f.lower() == low:
+            return SIGNATURES[f]
+    for fragment, hint in _HINTS:
+        if fragment in low:
+            return hint
+    close = difflib.get_close_matches(low, [f.lower() for f in FUNCTIONS], n=1, cutoff=0.6)
+    if close:
+        return SIGNATURES[next(f for f in FUNCTIONS if f.lower() == close[0])]
+    return None
+
+
+def _unknown(name: str, col: int) -> ExpressionError:
+    hint = suggest(name)
+    lead = f"unknown function {echo(name)}"
+    if hint:
+        lead += f"; did you mean {hint}?"
+    return ExpressionError(f"{lead} (known: {', '.join(FUNCTIONS)})", col)
+
+
+# ------------------------------------------------------------------ entry point
 
 
 def parse(text: str, base_dir: str | Path | None = None) -> Node:
     """Parse expression text into an expression node ready for the engine.
 
     ``base_dir`` resolves relative ``load("...")`` paths (default: the
-    current directory).
+    current directory).  Raises ExpressionError (or a subclass) with the
+    column for anything that is not a valid expression within the limits.
 
     >>> parse("cart(K(2)^3)").order
     8
     >>> parse("direct(P(3)^2, C(5))").label()
     'direct(P(3)^2, C(5))'
+    >>> parse("cart(C(5), C(5), P(3), C(5))").label()
+    'cart(C(5)^3, P(3))'
+    >>> parse("cart(scale(1/2, dicycle(3, w=[1, 2, 1/4]))^2)").label()
+    'cart(scale(0.5, dicycle(3, w=[1, 2, 0.25]))^2)'
     """
     tree = parse_syntax(text)
     return _build(tree, Path(base_dir) if base_dir else None)
 
 
 def _build(t, base: Path | None) -> Node:
-    if isinstance(t, Pow):
-        raise ExpressionError(
-            "a power G^k is only meaningful inside a product function: "
-            "write cart(G^k), direct(G^k), strong(G^k) or mix(a, b, G^k)",
-            t.col,
-        )
-    if not isinstance(t, Call):
-        raise ExpressionError("expected a graph (a function call such as C(5))", t.col)
-    name = t.name
-    try:
-        if name in _PRODUCT_FUNCS:
-            return _build_product(t, base)
-        if name in _FACTOR_FUNCS:
-            fn, params = _FACTOR_FUNCS[name]
-            if name == "K" and len(t.args) == 1:
-                params = ("n",)
-            _arity(t, len(params), params)
-            ints = [_integer(a, f"{name}() argument {p}") for a, p in zip(t.args, params, strict=True)]
-            f = fn(*ints)
-            if name == "motif":  # echo the expression as written
-                f = Factor(f.adjacency, "motif()", f.closed_form)
-            return Leaf(f)
-        if name == "load":
-            return _build_load(t, base)
-        if name in ("scale", "loops"):
-            _arity(t, 2, ("c", "G"))
-            c = _real(t.args[0], f"{name}() weight c")
-            g = _build(t.args[1], base)
-            if not isinstance(g, Leaf):
-                raise ExpressionError(f"{name}() takes a factor, not a product", t.args[1].col)
-            return Leaf(getattr(families, name)(c, g.factor))
-    except ExpressionError:
-        raise
-    except PowerspecError as exc:
-        raise ExpressionError(str(exc), t.col) from exc
-    raise ExpressionError(f"unknown function {name!r}; known: {', '.join(FUNCTIONS)}", t.col)
+    """The expression node of syntax tree ``t`` (``base`` resolves relative load paths)."""
+    return _Builder(base).build(t)
 
 
-def _build_product(t: Call, base: Path | None) -> Node:
-    args = list(t.args)
-    if t.name == "mix":
-        if len(args) < 3:
-            raise ExpressionError("mix(a, b, G, ...) needs two coefficients and a graph", t.col)
-        comb = Combination(_real(args[0], "mix() coefficient a"), _real(args[1], "mix() coefficient b"))
-        args = args[2:]
-        label = ""
-    else:
-        if not args:
-            raise ExpressionError(f"{t.name}() needs at least one graph", t.col)
-        comb = PRODUCT_KINDS[t.name]
-        label = t.name
-    operands = []
-    for a in args:
-        if isinstance(a, Pow):
-            k = _power(a.exponent)
-            operands.append((_build(a.base, base), k))
+class _Builder:
+    """Builds nodes from a syntax tree, each distinct sub-expression once."""
+
+    def __init__(self, base: Path | None):
+        self.base = base
+        self.memo: dict[str, Node] = {}
+        self.leaves = 0
+
+    def build(self, t) -> Node:
+        if isinstance(t, Pow):
+            raise ExpressionError(_POWER_OUTSIDE, t.col)
+        if not isinstance(t, Call):
+            raise ExpressionError(_not_a_graph(t), getattr(t, "col", None))
+        if t.key in self.memo:
+            return self.memo[t.key]
+        node = self._call(t)
+        if isinstance(node, Leaf):
+            self.leaves += 1
+            if self.leaves > MAX_FACTORS:
+                raise ExpressionLimitError(
+                    f"the expression has more than {MAX_FACTORS} distinct factors", t.col)
+        if t.key:
+            self.memo[t.key] = node
+        return node
+
+    def _call(self, t: Call) -> Node:
+        name = t.name
+        try:
+            if name in _PRODUCT_FUNCS:
+                return self._product(t)
+            if name in _FACTOR_FUNCS:
+                return Leaf(_family(t))
+            if name == "load":
+                return self._load(t)
+            if name in ("scale", "loops"):
+                args = _bind(t, ("c", "G"), 2)
+                c = _real(args["c"], f"{name}() weight c")
+                g = self.build(args["G"])
+                if not isinstance(g, Leaf):
+                    raise ExpressionError(f"{name}() takes a factor, not a product", args["G"].col)
+                return Leaf(getattr(families, name)(c, g.factor))
+        except ExpressionError:
+            raise
+        except FactorFileError as exc:
+            raise ExpressionFileError(str(exc), t.col) from None
+        except PowerspecError as exc:
+            raise ExpressionError(str(exc), t.col) from None
+        raise _unknown(name, t.col)
+
+    def _load(self, t: Call) -> Leaf:
+        if not t.args or len(t.args) > 2 or not isinstance(t.args[0], Str):
+            raise ExpressionError('load() takes a quoted file name: load("motif.mtx")', t.col)
+        directed = False
+        if len(t.args) == 2:
+            opt = t.args[1]
+            if not (isinstance(opt, Str) and opt.value in ("directed", "undirected")):
+                raise ExpressionError('the second argument of load() is "directed" or "undirected"',
+                                      opt.col)
+            directed = opt.value == "directed"
+        path = Path(t.args[0].value)
+        if self.base is not None and not path.is_absolute():
+            path = self.base / path
+        f = load(path, directed=directed)
+        # Keep the name as written so the expression echoes back unchanged.
+        shown = f'load("{t.args[0].value}"' + (', "directed")' if directed else ")")
+        return Leaf(Factor(f.adjacency, shown, f.closed_form))
+
+    def _product(self, t: Call) -> Node:
+        args = list(t.args)
+        for a in args:
+            if isinstance(a, Kw):
+                raise ExpressionError(f"{t.name}() takes graphs, not keyword arguments", a.col)
+        if t.name == "mix":
+            if len(args) < 3:
+                raise ExpressionError("mix(a, b, G, ...) needs two coefficients and a graph", t.col)
+            comb = Combination(_real(args[0], "mix() coefficient a"),
+                               _real(args[1], "mix() coefficient b"))
+            args, label = args[2:], ""
         else:
-            operands.append((_build(a, base), 1))
-    if len(operands) == 1 and operands[0][1] == 1:
-        return operands[0][0]
-    return Product(comb, tuple(operands), label)
+            if not args:
+                raise ExpressionError(f"{t.name}() needs at least one graph", t.col)
+            comb, label = PRODUCT_KINDS[t.name], t.name
+        operands = []
+        for a in args:
+            base, k = (a.base, _power(a.exponent)) if isinstance(a, Pow) else (a, 1)
+            node = self.build(base)
+            operands.append([base.key, node, k, a.col])
+        merged = merge_operands(operands, everywhere=comb.associative)
+        _check_operands(t, comb, merged)
+        if len(merged) == 1 and merged[0][2] == 1:
+            return merged[0][1]
+        return Product(comb, tuple((node, k) for _, node, k, _ in merged), label)
 
 
-def _power(e: Num | Name):
+def merge_operands(operands: list[list], everywhere: bool) -> list[list]:
+    """Merge ``[key, node, copies, col]`` operands with equal keys by adding their copies.
+
+    With ``everywhere`` (an associative product) all equal operands merge, at the
+    place of the first; otherwise only runs of adjacent equal ones (a left fold
+    depends on the order).
+
+    >>> ops = [["C(5)", 0, 1, 1], ["P(3)", 1, 1, 6], ["C(5)", 0, 2, 11]]
+    >>> [(k, c) for k, _, c, _ in merge_operands([o[:] for o in ops], True)]
+    [('C(5)', 3), ('P(3)', 1)]
+    >>> [(k, c) for k, _, c, _ in merge_operands([o[:] for o in ops], False)]
+    [('C(5)', 1), ('P(3)', 1), ('C(5)', 2)]
+    """
+    out: list[list] = []
+    first: dict[str, int] = {}
+    for op in operands:
+        key = op[0]
+        if everywhere and key in first:
+            out[first[key]][2] += op[2]
+        elif not everywhere and out and out[-1][0] == key:
+            out[-1][2] += op[2]
+        else:
+            first[key] = len(out)
+            out.append(op)
+    return out
+
+
+def _check_operands(t: Call, comb: Combination, merged: list[list]) -> None:
+    if len(merged) > MAX_OPERANDS:
+        raise ExpressionLimitError(
+            f"{t.name}() has {len(merged)} distinct operands, over the cap of {MAX_OPERANDS}", t.col)
+    for key, _, k, col in merged:
+        if k > MAX_COPIES:
+            raise ExpressionLimitError(
+                f"the copies of {echo(key)} add up to more than 10^18, the most supported", col)
+    if not comb.associative:
+        total = sum(k for _, _, k, _ in merged)
+        if total > MAX_FOLD_COPIES:
+            raise ExpressionLimitError(
+                f"{comb.label()} with a outside {{0, 1}} is a left fold, one step per copy; "
+                f"{total} copies is over the cap of {MAX_FOLD_COPIES} (mix(1, b) and mix(0, b) "
+                "are associative and take any power)", t.col)
+
+
+# ------------------------------------------------------------------- factors
+
+
+def _family(t: Call) -> Factor:
+    name = t.name
+    if name == "K":
+        positional = [a for a in t.args if not isinstance(a, Kw)]
+        kws = {a.name for a in t.args if isinstance(a, Kw)}
+        one = (len(positional) == 1 and not kws) or (not positional and kws == {"n"})
+        args = _bind(t, ("n",), 1) if one else _bind(t, ("m", "n"), 2)
+    elif name == "dicycle":
+        args = _bind(t, ("n", "w"), 1)
+    elif name == "motif":
+        _bind(t, (), 0)
+        f = families.motif()
+        return Factor(f.adjacency, "motif()", f.closed_form)  # echo as written
+    else:
+        args = _bind(t, ("n",), 1)
+    ints = {p: _integer(a, f"{name}() argument {p}") for p, a in args.items() if p != "w"}
+    n = ints["n"]
+    m = ints.get("m")
+    entries = {"P": 2 * (n - 1), "C": 2 * n, "J": n * n, "dicycle": n,
+               "K": n * (n - 1) if m is None else 2 * m * n}[name]
+    if entries > MAX_FAMILY_ENTRIES:
+        shown = f"{name}({n})" if m is None else f"{name}({m}, {n})"
+        raise ExpressionLimitError(
+            f"{shown} would store {entries:,} matrix entries, over the cap of "
+            f"{MAX_FAMILY_ENTRIES:,} per factor", t.col)
+    if name == "dicycle":
+        w = args.get("w")
+        if w is None:
+            return families.dicycle(n)
+        if not isinstance(w, NumList):
+            raise ExpressionError("dicycle() weights w are a list of numbers, e.g. w=[1, 1, 0.2]",
+                                  getattr(w, "col", t.col))
+        return families.dicycle(n, w=[_real(x, "a dicycle() weight") for x in w.items])
+    fn = _FACTOR_FUNCS[name]
+    return fn(n) if m is None else fn(m, n)
+
+
+def _bind(t: Call, params: tuple[str, ...], required: int) -> dict:
+    """Map a call's arguments to ``params`` (positional first, then keywords); check arity."""
+    sig = SIGNATURES.get(t.name, t.name + "()")
+    positional = [a for a in t.args if not isinstance(a, Kw)]
+    if len(positional) > len(params):
+        raise ExpressionError(
+            f"{sig} takes at most {len(params)} argument(s), got {len(positional)}",
+            getattr(positional[len(params)], "col", t.col))
+    out = dict(zip(params, positional, strict=False))
+    for kw in (a for a in t.args if isinstance(a, Kw)):
+        if kw.name not in params:
+            close = difflib.get_close_matches(kw.name, params, n=1)
+            hint = (f"; did you mean {close[0]}=?" if close
+                    else f"; its arguments are {', '.join(params) or 'none'}")
+            raise ExpressionError(f"{t.name}() has no argument {echo(kw.name)}{hint}", kw.col)
+        if kw.name in out:
+            raise ExpressionError(f"{t.name}() got argument {kw.name} twice", kw.col)
+        out[kw.name] = kw.value
+    missing = [p for p in params[:required] if p not in out]
+    if missing:
+        raise ExpressionError(f"{sig} needs {' and '.join(missing)}; got {len(t.args)} argument(s)",
+                              t.col)
+    return out
+
+
+# -------------------------------------------------------------------- numbers
+
+
+def _not_a_graph(t) -> str:
+    if isinstance(t, Name) and t.name in SIGNATURES:
+        return f"expected a graph; write {SIGNATURES[t.name]} with its parentheses"
+    if isinstance(t, Kw):
+        return "a keyword argument is not a graph"
+    return "expected a graph (a function call such as C(5))"
+
+
+def _power(e: Num | Name) -> int:
+    """The number of copies written after ``^``: a whole number in 1..10^18."""
     if isinstance(e, Name):
         raise ExpressionError(
-            f"symbolic power {e.name!r} needs the symbolic bridge (--symbolic); "
+            f"symbolic power {echo(e.name)} needs the symbolic bridge (--symbolic); "
             "the numeric engine takes an integer power",
             e.col,
         )
-    if isinstance(e.value, float):
-        raise ExpressionError(f"the power must be a whole number, got {e.text}", e.col)
-    if e.value < 1:
-        raise ExpressionError(f"the power must be at least 1, got {e.text}", e.col)
-    return e.value
-
-
-def _build_load(t: Call, base: Path | None) -> Leaf:
-    if not t.args or len(t.args) > 2 or not isinstance(t.args[0], Str):
-        raise ExpressionError('load() takes a quoted file name: load("motif.mtx")', t.col)
-    directed = False
-    if len(t.args) == 2:
-        opt = t.args[1]
-        if not (isinstance(opt, Str) and opt.value in ("directed", "undirected")):
-            raise ExpressionError('the second argument of load() is "directed" or "undirected"',
-                                  opt.col)
-        directed = opt.value == "directed"
-    path = Path(t.args[0].value)
-    if base is not None and not path.is_absolute():
-        path = base / path
-    f = load(path, directed=directed)
-    # Keep the name as written so the expression echoes back unchanged.
-    shown = f'load("{t.args[0].value}"' + (', "directed")' if directed else ")")
-    return Leaf(Factor(f.adjacency, shown, f.closed_form))
-
-
-def _arity(t: Call, n: int, params) -> None:
-    if len(t.args) != n:
-        sig = ", ".join(params)
-        raise ExpressionError(f"{t.name}({sig}) takes {n} argument(s), got {len(t.args)}", t.col)
+    if not isinstance(e.value, int):
+        raise ExpressionError(f"the power must be a whole number, got {echo(e.text)}", e.col)
+    return check_copies(e.value, "the power", e.col)
 
 
 def _integer(a, what: str) -> int:
     if not isinstance(a, Num) or not isinstance(a.value, int):
         raise ExpressionError(f"{what} must be a whole number", getattr(a, "col", None))
+    if abs(a.value) > 10**15:
+        raise ExpressionLimitError(f"{what} = {echo(a.text)} is out of range", a.col)
     return a.value
 
 
 def _real(a, what: str) -> float:
+    """The nearest double to a weight or coefficient, after the range check of the limits."""
     if not isinstance(a, Num):
         raise ExpressionError(f"{what} must be a number", getattr(a, "col", None))
-    return float(a.value)
+    return check_real(a.value, what, a.col, text=a.text)
+
+
+__all__ = ["FUNCTIONS", "SIGNATURES", "ExpressionFileError", "merge_operands", "parse",
+           "parse_syntax", "suggest", "Call", "Kw", "Name", "Num", "NumList", "Pow", "Str"]

@@ -10,11 +10,8 @@ parser), never as ``inf``; multiplicities are written as exact integers.
 from __future__ import annotations
 
 import math
-import os
 import sys
-import tempfile
 from dataclasses import dataclass, field
-from pathlib import Path
 from typing import Any
 
 import mpmath
@@ -222,21 +219,3 @@ def _text_value(v: Any) -> str:
     if isinstance(v, (mpmath.mpf, mpmath.mpc)):
         return mpmath.nstr(v, 12)
     return str(v)
-
-
-def write_atomic(path: str | os.PathLike, data: str | bytes) -> None:
-    """Write a file atomically: a temporary file in the same folder, then rename."""
-    p = Path(path)
-    folder = p.parent if str(p.parent) else Path(".")
-    if not folder.is_dir():
-        raise InputError(f"cannot write {p}: folder {folder} does not exist")
-    mode = "wb" if isinstance(data, bytes) else "w"
-    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", dir=folder)
-    try:
-        with os.fdopen(fd, mode) as fh:
-            fh.write(data)
-        os.replace(tmp, p)
-    except OSError as exc:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise InputError(f"cannot write {p}: {exc.strerror}") from exc

@@ -35,6 +35,26 @@ def _one_line(text: Any) -> str:
     return " ".join(str(text).split())
 
 
+def clip(text: Any, limit: int = 40, *, tail: bool = False) -> str:
+    """``text`` quoted for a message, cut to ``limit`` characters (the end kept with ``tail``).
+
+    Error messages repeat user input through this, so that a 10,000-digit
+    literal or a long path cannot flood the terminal.
+
+    >>> clip("C(5)")
+    "'C(5)'"
+    >>> clip("x" * 100, 10)
+    "'xxxxxxx...' (100 characters)"
+    >>> clip("/a/very/long/path/to/file.mtx", 12, tail=True)
+    "'.../file.mtx' (29 characters)"
+    """
+    s = str(text)
+    if len(s) <= limit:
+        return repr(s)
+    cut = "..." + s[len(s) - limit + 3:] if tail else s[:limit - 3] + "..."
+    return f"{cut!r} ({len(s)} characters)"
+
+
 def _check_kind(kind: Any) -> str:
     if not isinstance(kind, str) or kind not in MATRIX_KINDS:
         raise InputError(
@@ -108,9 +128,12 @@ def _format_number(c: float) -> str:
 def _check_real(c: Any, what: str) -> float:
     if isinstance(c, (bool, np.bool_)) or not isinstance(c, numbers.Real):
         raise InputError(f"{what} must be a real number, got {c!r} ({type(c).__name__})")
-    f = float(c)
+    try:
+        f = float(c)
+    except OverflowError:  # an int or Fraction beyond the double range
+        f = math.inf
     if not math.isfinite(f):
-        raise InputError(f"{what} must be finite, got {c!r}")
+        raise InputError(f"{what} must be finite, got {clip(c)}")
     return f
 
 

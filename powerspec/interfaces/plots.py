@@ -14,8 +14,8 @@ from pathlib import Path
 
 import numpy as np
 
-from powerspec.answers.answer import write_atomic
 from powerspec.errors import InputError, PowerspecError
+from powerspec.interfaces.files import write_atomic
 from powerspec.queries import planner
 
 FORMATS = ("png", "pdf", "svg")
