@@ -78,7 +78,7 @@ def _dask(jobs: list[tuple], scheduler: str) -> Iterator[Block]:
                             "check the address or run without a scheduler") from exc
     try:
         futures = client.map(_job, jobs, pure=False)
-        for fut in dask_completed(futures):
+        for fut in dask_completed(futures, loop=client.loop):
             yield fut.result()
     finally:
         client.close()
