@@ -224,7 +224,7 @@ class RotationCache:
 
     def _block(self, module: GTModule, p: int, g: int) -> _BlockEig:
         pb = module.plane_blocks(p)
-        key = pb.keys[g]
+        key = (module.n,) + pb.keys[g]  # n enters the coefficient error bound
         hit = self._eig.get(key)
         if hit is None:
             idx = pb.groups[g]
