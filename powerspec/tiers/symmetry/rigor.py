@@ -75,14 +75,22 @@ def fro_up(x: np.ndarray) -> float:
     return math.sqrt(s * (1.0 + gamma(flat.size + 4))) * scale * (1.0 + gamma(6))
 
 
-def _split(x: np.ndarray, t: int, axis: int) -> tuple[np.ndarray, np.ndarray]:
-    """x = hi + lo exactly, hi with t bits relative to the max of each row (axis=1) or column."""
+def _split(x: np.ndarray, t: int, axis: int) -> tuple[np.ndarray, np.ndarray, float]:
+    """x = hi + lo exactly, hi with t bits relative to the max of each row (axis=-1) or column.
+
+    Also returns an upper bound of ||lo||_F from the row (column) exponents alone:
+    |lo_ij| <= 2^(e_i - t - 1) where max_j |x_ij| < 2^(e_i).
+    """
     m = np.max(np.abs(x), axis=axis, keepdims=True)
     _, e = np.frexp(m)  # m < 2^e (and e = 0 for m = 0)
     scale = np.ldexp(1.0, t - e)  # powers of two: multiplying by them is exact
-    hi = np.rint(x * scale)
-    hi /= scale
-    return hi, x - hi
+    hi = np.multiply(x, scale)
+    np.rint(hi, out=hi)
+    np.divide(hi, scale, out=hi)
+    lo = np.subtract(x, hi)
+    half_ulp = np.where(m > 0, np.ldexp(1.0, e - t - 1), 0.0)
+    lo_bound = math.sqrt(float(np.sum(half_ulp * half_ulp)) * x.shape[axis]) * (1 + gamma(x.size + 4))
+    return hi, lo, lo_bound
 
 
 def split_matmul(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, float]:
@@ -114,16 +122,20 @@ def split_matmul(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, float]:
         c = x @ y
         bound = gamma(m + 2) * fro_up(np.abs(x) @ np.abs(y)) * (1 + gamma(m + 2))
         return c, up(bound)
-    xh, xl = _split(x, t, axis=-1)
-    yh, yl = _split(y, t, axis=-2)
+    xh, xl, xl_f = _split(x, t, axis=-1)
+    yh, yl, yl_f = _split(y, t, axis=-2)
     t1 = xh @ yh  # exact
     t2 = xh @ yl
     t3 = xl @ y
     c = t1 + (t2 + t3)
     # stacked operands: Frobenius norms of the whole stacks bound the root-sum-square of the
-    # per-matrix bounds (Cauchy-Schwarz), so the bound holds for the stack as one matrix
-    err = gamma(m + 2) * (fro_up(xh) * fro_up(yl) + fro_up(xl) * fro_up(y))
-    err += gamma(3) * (fro_up(c) + fro_up(t2) + fro_up(t3))
+    # per-matrix bounds (Cauchy-Schwarz), so the bound holds for the stack as one matrix.
+    # ||fl(t2)||_F <= (1 + γ) ||xh||_F ||yl||_F and likewise for t3, so only x, y, c are scanned.
+    g = gamma(m + 2)
+    x_f, y_f = fro_up(x), fro_up(y)
+    e2 = (x_f + xl_f) * yl_f
+    e3 = xl_f * y_f
+    err = g * (e2 + e3) + gamma(3) * (fro_up(c) + (1 + g) * (e2 + e3))
     return c, up(err)
 
 
@@ -159,7 +171,7 @@ def gram_defect(v: np.ndarray) -> float:
     """
     m, k = v.shape
     t = (53 - max(1, math.ceil(math.log2(max(m, 2))))) // 2
-    vh, vl = _split(v, t, axis=0)
+    vh, vl, _ = _split(v, t, axis=0)
     g = vh.T @ vh  # exact (column-wise split with the same t as split_matmul)
     cross = vh.T @ vl
     quad = vl.T @ vl  # symmetric product (BLAS syrk)
