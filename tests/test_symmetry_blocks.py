@@ -203,3 +203,39 @@ def test_normalized_direct_power_traces_k9():
         exact = _word_trace_power([ident, walk], [1, -1], k, p)
         s, bound = _block_power_sums(blks, p)
         assert abs(s - mpmath.mpf(exact.numerator) / exact.denominator) <= bound * (1 + 1e-9) + 1e-30
+
+
+SYMMETRIC = {
+    "P3": P3.astype(float),
+    "C4 weighted": np.array([[0, 2, 0, 1], [2, 0, 1, 0], [0, 1, 0, 2], [1, 0, 2, 0]], dtype=float),
+    "K1,3": STAR.astype(float),
+    "P5 weighted": np.array([[0, .5, 0, 0, 0], [.5, 0, 2, 0, 0], [0, 2, 0, 2, 0], [0, 0, 2, 0, .5],
+                             [0, 0, 0, .5, 0]]),
+}
+
+
+@pytest.mark.parametrize("rule", list(RULES))
+@pytest.mark.parametrize("name", list(SYMMETRIC))
+def test_automorphism_split_against_explicit_products(name, rule):
+    # factors with a reflection or leaf swap are split into ±1 parts first; the explicit
+    # product (numpy) must still be covered, for every kind
+    a, b = RULES[rule]
+    adj = SYMMETRIC[name]
+    k = 3 if adj.shape[0] <= 4 else 2
+    ops = [PowerOperand(adj, adj.sum(axis=1), k)]
+    unsplit = plan(ops, a, b, "laplacian", automorphisms=False)
+    assert plan(ops, a, b, "laplacian").largest < unsplit.largest
+    for kind in KINDS:
+        _check_against_explicit(ops, a, b, kind)
+
+
+def test_automorphism_split_in_products_of_powers():
+    # direct(P3^2, W^2) and strong(K1,3^2, P3): mixed split and unsplit operands
+    rng = np.random.default_rng(4)
+    w = random_weighted_graph(rng, 3)
+    for ops, (a, b) in [([PowerOperand(P3.astype(float), P3.sum(axis=1).astype(float), 2),
+                          PowerOperand(w, w.sum(axis=1), 2)], (0, 1)),
+                        ([PowerOperand(STAR.astype(float), STAR.sum(axis=1).astype(float), 2),
+                          PowerOperand(P3.astype(float), P3.sum(axis=1).astype(float), 1)], (1, 1))]:
+        for kind in ("laplacian", "normalized"):
+            _check_against_explicit(ops, a, b, kind)

@@ -23,8 +23,9 @@ residual bound, and Weyl's theorem gives the radius of every eigenvalue.
 
 >>> import numpy as np
 >>> from powerspec.tiers.symmetry.plan import PowerOperand
->>> ops = prepare([PowerOperand(np.array([[0., 1], [1, 0]]), np.array([1., 1]), 2)], 0, 1, "laplacian")
->>> blk = compute_block(ops, ((2,),), 0, 1, "laplacian", 1)
+>>> from powerspec.tiers.symmetry.reduction import Factor
+>>> ops = prepare([Factor(np.array([[0., 1], [1, 0]]), np.array([1., 1]))], 0, 1, "laplacian")
+>>> blk = compute_block([(ops[0], 2)], ((2,),), 0, 1, "laplacian", 1)
 >>> (blk.values.round(12) + 0.0).tolist(), bool(blk.radius.max() < 1e-13)
 ([0.0, 0.0, 2.0], True)
 """
@@ -47,7 +48,8 @@ from powerspec.tiers.symmetry.factor import (
     group_perturbation,
 )
 from powerspec.tiers.symmetry.patterns import GTModule, U, gamma
-from powerspec.tiers.symmetry.plan import PowerOperand, rule_name
+from powerspec.tiers.symmetry.plan import rule_name
+from powerspec.tiers.symmetry.reduction import Factor
 from powerspec.tiers.symmetry.rigor import certify_symmetric, fro_up, split_matmul, up
 from powerspec.tiers.symmetry.rotations import orthogonal_image
 
@@ -60,39 +62,42 @@ class Block:
 
     Each true eigenvalue of the block lies within ``radius[i]`` of ``values[i]`` (sorted
     pairing); every eigenvalue of the block occurs ``multiplicity`` times in the product.
-    ``shape`` is the tuple of partitions (one per operand) labelling the block.
+    ``shape`` is the tuple of partitions (one per part) labelling the block and ``parts``
+    names the parts: "G1" for operand 1, "G1+"/"G1-" for its halves under an automorphism.
     """
 
     values: np.ndarray
     radius: np.ndarray
     multiplicity: int
     shape: tuple[Partition, ...]
+    parts: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
 class PreparedOperand:
-    """Picklable per-operand data: the operand matrix's certified spectrum and the degrees."""
+    """Picklable per-factor data: the operand matrix's certified spectrum, the degrees, a name."""
 
     n: int
-    copies: int
     spectrum: FactorSpectrum
     degrees: np.ndarray
+    name: str = "G"
 
 
-def prepare(operands: list[PowerOperand], a: float, b: float, kind: str) -> list[PreparedOperand]:
-    """Certified spectral data of each operand matrix X_i (see the module docstring)."""
+def prepare(factors: list[Factor], a: float, b: float, kind: str) -> list[PreparedOperand]:
+    """Certified spectral data of each factor's operand matrix X (see the module docstring)."""
     rule = rule_name(a, b)
     out = []
-    for op in operands:
-        adj, deg = op.adjacency, op.degrees
+    for fac in factors:
+        adj, deg = fac.adjacency, fac.degrees
+        base = fac.exact_adjacency()
         if rule == "multiplicative" and kind in ("normalized", "transition"):
             s = 1.0 / np.sqrt(deg)
-            spec = factor_spectrum(adj * np.outer(s, s), exact_normalized(adj, deg))
+            spec = factor_spectrum(adj * np.outer(s, s), exact_normalized(base, deg))
         elif rule == "shifted":
-            spec = factor_spectrum(np.eye(adj.shape[0]) + b * adj, exact_shifted(adj, b))
+            spec = factor_spectrum(np.eye(adj.shape[0]) + b * adj, exact_shifted(base, b))
         else:
-            spec = factor_spectrum(adj)
-        out.append(PreparedOperand(adj.shape[0], op.copies, spec, deg))
+            spec = factor_spectrum(adj, base)
+        out.append(PreparedOperand(adj.shape[0], spec, deg, fac.name))
     return out
 
 
@@ -125,11 +130,11 @@ def monomials(base: np.ndarray, weights: np.ndarray) -> np.ndarray:
     return res
 
 
-def _operand_data(op: PreparedOperand, shape: Partition, rule: str, b: float, need_deg: bool):
+def _operand_data(op: PreparedOperand, k: int, shape: Partition, rule: str, b: float, need_deg: bool):
     module = gt_module(shape, op.n)
     u, eps = orthogonal_image(module, op.spectrum.signs, list(op.spectrum.rotations))
     w = module.weights
-    k, n = op.copies, op.n
+    n = op.n
     vals = op.spectrum.values
     if rule == "cartesian":
         x = w @ vals
@@ -166,13 +171,15 @@ def _combine(
     return val, err
 
 
-def compute_block(ops: list[PreparedOperand], shapes: tuple[Partition, ...], a: float, b: float,
-                  kind: str, multiplicity: int) -> Block:
-    """The certified eigenvalues of the block ``shapes`` (see the module docstring)."""
+def compute_block(parts: list[tuple[PreparedOperand, int]], shapes: tuple[Partition, ...], a: float,
+                  b: float, kind: str, multiplicity: int) -> Block:
+    """The certified eigenvalues of block ``shapes`` of the product of ``parts`` (operand, copies)."""
     rule = rule_name(a, b)
     norm_direct = rule == "multiplicative" and kind in ("normalized", "transition")
     need_deg = kind != "adjacency" and not norm_direct
-    data = [_operand_data(op, lam, rule, b, need_deg) for op, lam in zip(ops, shapes, strict=True)]
+    data = [_operand_data(op, k, lam, rule, b, need_deg)
+            for (op, k), lam in zip(parts, shapes, strict=True)]
+    names = tuple(op.name for op, _ in parts)
     # the orthogonal frame: Kronecker product of the operands' images
     u = data[0][0]
     eps_u = data[0][1]
@@ -237,11 +244,11 @@ def compute_block(ops: list[PreparedOperand], shapes: tuple[Partition, ...], a: 
     mu, r = certify_symmetric(bt)
     radius = up(err + r)
     if rule == "multiplicative" and kind in ("laplacian", "signless", "adjacency"):
-        total = sum(op.copies for op in ops)
+        total = sum(k for _, k in parts)
         scale = float(monomials(np.array([b]), np.array([[total - 1]]))[0])
         if scale != 1.0:
             mu_scaled = mu * scale
             g = gamma(2 * total + 2)
             rad = radius * abs(scale) * (1 + g) + g * np.abs(mu_scaled)
-            return Block(mu_scaled, rad, multiplicity, tuple(shapes))
-    return Block(mu, np.full(mu.shape, radius), multiplicity, tuple(shapes))
+            return Block(mu_scaled, rad, multiplicity, tuple(shapes), names)
+    return Block(mu, np.full(mu.shape, radius), multiplicity, tuple(shapes), names)

@@ -64,28 +64,26 @@ def exact_matrix(x: np.ndarray) -> Callable[[], flint.arb_mat]:
     return build
 
 
-def exact_shifted(x: np.ndarray, b: float) -> Callable[[], flint.arb_mat]:
-    """A builder of the exact I + b X (ball arithmetic, exact up to the 200-bit balls)."""
+def exact_shifted(base: Callable[[], flint.arb_mat], b: float) -> Callable[[], flint.arb_mat]:
+    """A builder of the exact I + b X from a builder of the exact X (ball arithmetic)."""
 
     def build() -> flint.arb_mat:
-        n = x.shape[0]
+        x = base()
+        n = x.nrows()
         bb = flint.arb(float(b))
-        return flint.arb_mat(
-            [[(1 if i == j else 0) + bb * flint.arb(float(x[i, j])) for j in range(n)] for i in range(n)]
-        )
+        return flint.arb_mat([[(1 if i == j else 0) + bb * x[i, j] for j in range(n)] for i in range(n)])
 
     return build
 
 
-def exact_normalized(a: np.ndarray, deg: np.ndarray) -> Callable[[], flint.arb_mat]:
-    """A builder of the exact D^-1/2 A D^-1/2 (degrees > 0) as a ball matrix."""
+def exact_normalized(base: Callable[[], flint.arb_mat], deg: np.ndarray) -> Callable[[], flint.arb_mat]:
+    """A builder of the exact D^-1/2 A D^-1/2 (degrees > 0) from a builder of the exact A."""
 
     def build() -> flint.arb_mat:
-        n = a.shape[0]
+        a = base()
+        n = a.nrows()
         s = [1 / flint.arb(float(v)).sqrt() for v in deg]
-        return flint.arb_mat(
-            [[s[i] * flint.arb(float(a[i, j])) * s[j] for j in range(n)] for i in range(n)]
-        )
+        return flint.arb_mat([[s[i] * a[i, j] * s[j] for j in range(n)] for i in range(n)])
 
     return build
 

@@ -11,7 +11,8 @@ optional ``cluster`` extra; imported only then).
 >>> import numpy as np
 >>> from powerspec.tiers.symmetry.plan import PowerOperand
 >>> k2 = PowerOperand(np.array([[0., 1], [1, 0]]), np.array([1., 1]), 3)
->>> got = sorted((blk.shape, blk.multiplicity) for blk in blocks([k2], 0, 1, "laplacian"))
+>>> got = sorted((blk.shape, blk.multiplicity)
+...              for blk in blocks([k2], 0, 1, "laplacian", automorphisms=False))
 >>> got
 [(((2, 1),), 2), (((3,),), 1)]
 """
@@ -31,15 +32,19 @@ _THREAD_VARS = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
 
 
 def _job(args: tuple) -> Block:
-    ops, shapes, a, b, kind, mult = args
-    return compute_block(ops, shapes, a, b, kind, mult)
+    parts, shapes, a, b, kind, mult = args
+    return compute_block(parts, shapes, a, b, kind, mult)
 
 
 def _jobs(
     ops: list[PreparedOperand], the_plan: SymmetryPlan, a: float, b: float, kind: str
 ) -> list[tuple]:
     specs = sorted(the_plan.specs, key=lambda s: -s.dim)
-    return [(ops, s.shapes, a, b, kind, s.multiplicity) for s in specs]
+    jobs = []
+    for s in specs:
+        parts = [(ops[fi], copies) for fi, copies in the_plan.terms[s.term].parts]
+        jobs.append((parts, s.shapes, a, b, kind, s.multiplicity))
+    return jobs
 
 
 def _local_pool(jobs: list[tuple], workers: int) -> Iterator[Block]:
@@ -87,19 +92,20 @@ def _dask(jobs: list[tuple], scheduler: str) -> Iterator[Block]:
 def blocks(operands: list[PowerOperand], a: float, b: float, kind: str, *, workers: int = 1,
            scheduler: str | None = None, progress: Callable[[int, int], None] | None = None,
            max_block: int | None = None, max_work: int | None = None,
-           max_memory: int | None = None) -> Iterator[Block]:
+           max_memory: int | None = None, automorphisms: bool = True) -> Iterator[Block]:
     """Yield the certified blocks of ``kind`` for the product of the operands under x∘y = a(x+y) + bxy.
 
     The union of the blocks' eigenvalues, each repeated ``multiplicity`` times, is the
     spectrum of the product matrix (n^k eigenvalues in all).  The plan is checked against
     the limits before any work (:class:`SymmetryError` on refusal or invalid input).
-    ``progress(done, total)`` is called after each block.
+    ``progress(done, total)`` is called after each block.  ``automorphisms`` splits factors
+    with an involutive automorphism first (same spectrum, much smaller blocks).
     """
-    the_plan = plan(operands, a, b, kind)
+    the_plan = plan(operands, a, b, kind, automorphisms=automorphisms)
     the_plan.check(max_block=max_block, max_work=max_work, max_memory=max_memory)
     if workers < 1:
         raise SymmetryError("symmetry tier: workers must be >= 1")
-    ops = prepare(validate_copy(operands, a, b, kind), a, b, kind)
+    ops = prepare(list(the_plan.factors), a, b, kind)
     jobs = _jobs(ops, the_plan, a, b, kind)
     total = len(jobs)
     if scheduler is not None:
@@ -112,10 +118,3 @@ def blocks(operands: list[PowerOperand], a: float, b: float, kind: str, *, worke
         if progress is not None:
             progress(done, total)
         yield blk
-
-
-def validate_copy(operands: list[PowerOperand], a: float, b: float, kind: str) -> list[PowerOperand]:
-    """The validated operands (float64 arrays), as :func:`plan` checked them."""
-    from powerspec.tiers.symmetry.plan import validate
-
-    return validate(operands, a, b, kind)

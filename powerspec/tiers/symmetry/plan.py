@@ -4,15 +4,21 @@ The operands are plain numpy data (:class:`PowerOperand`); a product of
 operands G_1^k_1, ..., G_m^k_m under the rule x∘y = a(x + y) + b x y has
 symmetry group S_k_1 x ... x S_k_m and one block per tuple of partitions
 (λ_1, ..., λ_m), λ_i ⊢ k_i with at most n_i parts, of size prod d_λ_i and
-multiplicity prod f^λ_i.  :func:`plan` computes the block count, the largest
+multiplicity prod f^λ_i (after an optional exact split of each factor by an
+involutive automorphism, :mod:`~powerspec.tiers.symmetry.reduction`, which turns
+G^k into the weighted sum of products G_+^(k-m) ∘ G_-^m).  :func:`plan` computes
+the block count, the largest
 block, the work sum d^3 and a memory estimate from the dimension formulas
 alone, before any numerical work.
 
 >>> import numpy as np
 >>> path = PowerOperand(np.array([[0., 1, 0], [1, 0, 1], [0, 1, 0]]), np.array([1., 2, 1]), 4)
->>> p = plan([path], 0, 1, "laplacian")
+>>> p = plan([path], 0, 1, "laplacian", automorphisms=False)
 >>> p.order, p.blocks, p.largest, p.total_check
 (81, 4, 15, 81)
+>>> p = plan([path], 0, 1, "laplacian")     # split by the reflection of the path first
+>>> p.order, p.blocks, p.largest, p.total_check
+(81, 9, 5, 81)
 """
 
 from __future__ import annotations
@@ -25,6 +31,7 @@ import numpy as np
 
 from powerspec.tiers.symmetry.combinatorics import Partition, partitions, schur_weyl_dims
 from powerspec.tiers.symmetry.errors import SymmetryError
+from powerspec.tiers.symmetry.reduction import Factor, Term, reduce_operands
 
 KINDS = ("laplacian", "signless", "normalized", "transition", "adjacency")
 """Matrix kinds the tier answers (adjacency is for cross-checks)."""
@@ -51,8 +58,9 @@ class PowerOperand:
 
 @dataclass(frozen=True)
 class BlockSpec:
-    """One block of the plan: the partition of each operand, its size and its multiplicity."""
+    """One block of the plan: its term, the partition of each part, its size and its multiplicity."""
 
+    term: int
     shapes: tuple[Partition, ...]
     dim: int
     multiplicity: int
@@ -75,6 +83,8 @@ class SymmetryPlan:
     memory: int
     total_check: int
     specs: tuple[BlockSpec, ...] = field(repr=False)
+    factors: tuple[Factor, ...] = field(default=(), repr=False)
+    terms: tuple[Term, ...] = field(default=(), repr=False)
 
     def check(self, max_block: int | None = None, max_work: int | None = None,
               max_memory: int | None = None) -> None:
@@ -162,37 +172,45 @@ def validate(operands: list[PowerOperand], a: float, b: float, kind: str) -> lis
     return out
 
 
-def plan(operands: list[PowerOperand], a: float, b: float, kind: str) -> SymmetryPlan:
+def plan(operands: list[PowerOperand], a: float, b: float, kind: str, *,
+         automorphisms: bool = True) -> SymmetryPlan:
     """The block plan (sizes only, exact integers); raises SymmetryError on invalid input.
+
+    With ``automorphisms`` (the default) each factor with an involutive automorphism is
+    first split into its ±1 parts (:mod:`~powerspec.tiers.symmetry.reduction`), which
+    makes the blocks much smaller; the spectrum is the same.
 
     >>> star = PowerOperand(np.array([[0., 1, 1, 1], [1, 0, 0, 0], [1, 0, 0, 0], [1, 0, 0, 0]]),
     ...                     np.array([3., 1, 1, 1]), 13)
     >>> p = plan([star], 0, 1, "laplacian")
     >>> p.order == 4**13 == p.total_check, p.blocks, p.largest
-    (True, 39, 2100)
+    (True, 123, 195)
+    >>> plan([star], 0, 1, "laplacian", automorphisms=False).largest
+    2100
     """
     operands = validate(operands, a, b, kind)
-    per_op = []
-    for op in operands:
-        n = op.adjacency.shape[0]
-        shapes = []
-        for lam in partitions(op.copies, n):
-            f, d = schur_weyl_dims(lam, n)
-            shapes.append((lam, f, d))
-            if len(shapes) > MAX_SHAPES:
-                raise SymmetryError(f"symmetry tier: more than {MAX_SHAPES} blocks for {op.copies} "
-                                    f"copies of a {n}-vertex factor; ask for bounds or moments instead")
-        per_op.append(shapes)
-    count = math.prod(len(s) for s in per_op)
-    if count > MAX_SHAPES:
-        raise SymmetryError(f"symmetry tier: {count} blocks exceed the limit {MAX_SHAPES}; "
-                            "ask for bounds or moments instead")
-    specs = []
-    for combo in cartesian(*per_op):
-        specs.append(BlockSpec(tuple(c[0] for c in combo), math.prod(c[2] for c in combo),
-                               math.prod(c[1] for c in combo)))
+    named = [(Factor(op.adjacency, op.degrees, None, f"G{i}"), op.copies)
+             for i, op in enumerate(operands, 1)]
+    factors, terms = reduce_operands(named, automorphisms)
+    shapes_of: dict[tuple[int, int], list[tuple[Partition, int, int]]] = {}
+    specs: list[BlockSpec] = []
+    for t, term in enumerate(terms):
+        per_part = []
+        for fi, copies in term.parts:
+            key = (factors[fi].adjacency.shape[0], copies)
+            if key not in shapes_of:
+                shapes_of[key] = [(lam,) + schur_weyl_dims(lam, key[0])
+                                  for lam in partitions(copies, key[0])]
+            per_part.append(shapes_of[key])
+        if len(specs) + math.prod(len(s) for s in per_part) > MAX_SHAPES:
+            raise SymmetryError(f"symmetry tier: more than {MAX_SHAPES} blocks; "
+                                "ask for bounds or moments instead")
+        for combo in cartesian(*per_part):
+            specs.append(BlockSpec(t, tuple(c[0] for c in combo), math.prod(c[2] for c in combo),
+                                   term.weight * math.prod(c[1] for c in combo)))
     largest = max(s.dim for s in specs)
     order = math.prod(op.adjacency.shape[0] ** op.copies for op in operands)
     return SymmetryPlan(order=order, blocks=len(specs), largest=largest,
                         work=sum(s.dim**3 for s in specs), memory=BYTES_PER_ENTRY * largest * largest,
-                        total_check=sum(s.dim * s.multiplicity for s in specs), specs=tuple(specs))
+                        total_check=sum(s.dim * s.multiplicity for s in specs), specs=tuple(specs),
+                        factors=tuple(factors), terms=tuple(terms))
