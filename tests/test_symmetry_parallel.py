@@ -9,7 +9,7 @@ import pytest
 from test_symmetry_support import random_weighted_graph
 
 from powerspec.errors import InputError
-from powerspec.tiers.symmetry import PowerOperand, SymmetryError, blocks, plan
+from powerspec.tiers.symmetry import PowerOperand, SymmetryError, blocks, parallel, plan
 
 
 def _ops():
@@ -21,8 +21,9 @@ def _by_shape(blks):
     return {b.shape: b for b in blks}
 
 
-def test_process_pool_gives_the_same_blocks():
+def test_process_pool_gives_the_same_blocks(monkeypatch):
     # blocks are deterministic functions of their inputs: a 2-process pool reproduces them bit for bit
+    monkeypatch.setattr(parallel, "POOL_MIN_WORK", 0)  # use the pool even for this small product
     serial = _by_shape(blocks(_ops(), 0, 1, "laplacian"))
     seen = []
     pooled = _by_shape(blocks(_ops(), 0, 1, "laplacian", workers=2,

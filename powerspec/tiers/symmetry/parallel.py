@@ -30,6 +30,10 @@ from powerspec.tiers.symmetry.plan import PowerOperand, SymmetryPlan, plan
 
 _THREAD_VARS = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
 
+POOL_MIN_WORK = 2 * 10**9
+"""Below this work (sum of d^3) a local pool costs more to start (about a second per
+spawned interpreter) than it saves, and the blocks run in-process."""
+
 
 def _job(args: tuple) -> Block:
     parts, shapes, a, b, kind, mult = args
@@ -110,7 +114,7 @@ def blocks(operands: list[PowerOperand], a: float, b: float, kind: str, *, worke
     total = len(jobs)
     if scheduler is not None:
         source = _dask(jobs, scheduler)
-    elif workers > 1 and total > 1:
+    elif workers > 1 and total > 1 and the_plan.work >= POOL_MIN_WORK:
         source = _local_pool(jobs, min(workers, total))
     else:
         source = (_job(j) for j in jobs)
