@@ -171,6 +171,24 @@ def _combine(
     return val, err
 
 
+def _product_perturbation(norms: list[float], perts: list[float]) -> float:
+    """Upper bound of prod (n_i + p_i) - prod n_i, summed as a telescoping series of positive terms.
+
+    Forming the two products and subtracting would cancel catastrophically when p_i << n_i.
+
+    >>> 1.5 <= _product_perturbation([2.0, 3.0], [0.5, 0.0]) < 1.5 + 1e-14
+    True
+    """
+    total = 0.0
+    for j, pj in enumerate(perts):
+        if pj == 0.0:
+            continue
+        term = pj * math.prod(norms[:j]) * math.prod(n + p for n, p in zip(norms[j + 1:], perts[j + 1:],
+                                                                             strict=True))
+        total += term
+    return up(total * (1 + gamma(2 * len(norms) + 2)))
+
+
 def compute_block(parts: list[tuple[PreparedOperand, int]], shapes: tuple[Partition, ...], a: float,
                   b: float, kind: str, multiplicity: int) -> Block:
     """The certified eigenvalues of block ``shapes`` of the product of ``parts`` (operand, copies)."""
@@ -194,8 +212,8 @@ def compute_block(parts: list[tuple[PreparedOperand, int]], shapes: tuple[Partit
     if additive:
         pert = sum(p[4] for p in data)
     else:
-        norms = [float(np.max(np.abs(p[2]) + p[3])) for p in data]
-        pert = math.prod(nm + p[4] for nm, p in zip(norms, data, strict=True)) - math.prod(norms)
+        pert = _product_perturbation([float(np.max(np.abs(p[2]) + p[3])) for p in data],
+                                     [p[4] for p in data])
     if need_deg:
         dd, dd_err = _combine([(p[5], p[6]) for p in data], additive)
     if rule == "shifted":
@@ -232,7 +250,8 @@ def compute_block(parts: list[tuple[PreparedOperand, int]], shapes: tuple[Partit
         e_s = up(0.5 * rel / (1 - rel) + 3 * U)
         s = 1.0 / np.sqrt(dd)
         smax2 = float(np.max(s)) ** 2 * (1 + e_s) ** 2
-        err = smax2 * err + (2 * e_s + e_s * e_s) * smax2 * (cmax + pert)
+        # ||S C S - S~ C~ S~|| <= ||S||^2 ||C - C~|| + (2 e + e^2) ||S||^2 ||C~||, ||C~|| <= cmax + err
+        err = smax2 * err + (2 * e_s + e_s * e_s) * smax2 * (cmax + err)
         bt = bt * s[:, None] * s[None, :]
         err += gamma(3) * fro_up(bt)
     if kind == "normalized":
@@ -250,5 +269,7 @@ def compute_block(parts: list[tuple[PreparedOperand, int]], shapes: tuple[Partit
             mu_scaled = mu * scale
             g = gamma(2 * total + 2)
             rad = radius * abs(scale) * (1 + g) + g * np.abs(mu_scaled)
+            if scale < 0:  # keep the values ascending
+                mu_scaled, rad = mu_scaled[::-1].copy(), rad[::-1].copy()
             return Block(mu_scaled, rad, multiplicity, tuple(shapes), names)
     return Block(mu, np.full(mu.shape, radius), multiplicity, tuple(shapes), names)

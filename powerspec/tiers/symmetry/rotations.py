@@ -275,10 +275,11 @@ def rotation_image(
     (True, True)
     """
     cache = cache or _DEFAULT_CACHE
-    kmax = int(sum(module.shape))
-    cos_tab, sin_tab = angle_table(phi, kmax)
+    groups = cache.groups(module, p)
+    mmax = max([int(np.max(np.abs(g.m))) for g in groups], default=0)  # <= k, the table covers all m
+    cos_tab, sin_tab = angle_table(phi, mmax)
     out, eta = [], 0.0
-    for grp in cache.groups(module, p):
+    for grp in groups:
         r, e = grp.exp(cos_tab, sin_tab, phi)
         out.append((grp.cols, r))
         eta = max(eta, e)
