@@ -27,7 +27,7 @@ from test_symmetry_support import (
     sorted_cover,
 )
 
-from powerspec.tiers.symmetry import KINDS, PowerOperand, blocks, plan
+from powerspec.tiers.symmetry import KINDS, PowerOperand, SymmetryError, blocks, plan
 
 RULES = {"direct": (0, 1), "strong": (1, 1), "cartesian": (1, 0), "mix(0,0.7)": (0, 0.7),
          "mix(1,0.5)": (1, 0.5)}
@@ -239,3 +239,15 @@ def test_automorphism_split_in_products_of_powers():
                           PowerOperand(P3.astype(float), P3.sum(axis=1).astype(float), 1)], (1, 1))]:
         for kind in ("laplacian", "normalized"):
             _check_against_explicit(ops, a, b, kind)
+
+
+@pytest.mark.parametrize("a,b", [(0, -0.5), (1, -0.3)])
+def test_negative_coefficients(a, b):
+    # mix(0, b < 0): the eigenvalues are scaled by b^(K-1) < 0 for even K (order reversed);
+    # mix(1, b < 0): 1 + b lambda changes sign; both against numpy on the explicit product
+    for spec in ([(3, 2)], [(3, 3)], [(3, 2), (2, 1)]):
+        ops = _operands(spec, seed=21)
+        for kind in ("laplacian", "signless", "adjacency"):
+            _check_against_explicit(ops, a, b, kind)
+    with pytest.raises(SymmetryError):
+        list(blocks(_operands([(3, 2)], seed=21), a, b, "normalized"))
