@@ -9,10 +9,18 @@ non-factoring Laplacian, signless, normalized and transition spectra of direct,
 strong, generalized (a in {0, 1}) and Cartesian powers exact to certified
 precision.
 
+Before that, a factor with an involutive automorphism (a reflection of a path, a
+swap of two leaves of a star, ...) is split exactly into its ±1 parts, which turns
+G^k into binomially weighted products G_+^(k-m) ∘ G_-^m with far smaller blocks
+(:mod:`~powerspec.tiers.symmetry.reduction`).
+
 Public API: :class:`PowerOperand`, :func:`plan` (cheap size check),
 :func:`blocks` (the certified blocks; local, process-pool or Dask),
 :class:`Block`, :class:`SymmetryPlan`, :class:`SymmetryError`, and the
 sorted-degree heuristic in :mod:`~powerspec.tiers.symmetry.heuristic`.
+Module map (dependencies point down): parallel -> block -> plan -> reduction ->
+factor -> rotations -> rigor -> patterns -> combinatorics; represent and heuristic
+are leaves used by tests and benchmarks.
 
 >>> import numpy as np
 >>> p3 = PowerOperand(np.array([[0., 1, 0], [1, 0, 1], [0, 1, 0]]), np.array([1., 2, 1]), 3)
