@@ -18,10 +18,11 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from test_symmetry_support import (
+from test_symmetry_support import (  # noqa: F401  (one_blas_thread is an autouse fixture)
     certified_eigenvalues,
     expand,
     explicit_product,
+    one_blas_thread,
     random_weighted_graph,
     reference_eigenvalues,
     sorted_cover,
@@ -92,15 +93,22 @@ def test_custom_degrees_are_used():
         _check_against_explicit(ops, 0, 1, kind)
 
 
-@settings(max_examples=25, deadline=None)
-@given(n=st.integers(2, 4), k=st.integers(1, 4), seed=st.integers(0, 2**31),
-       rule=st.sampled_from(list(RULES)), kind=st.sampled_from(KINDS))
-def test_coverage_random_weighted_factors(n, k, seed, rule, kind):
-    # hypothesis: random weighted irregular factors, every explicit eigenvalue inside the radii
+@settings(max_examples=60, deadline=None)
+@given(n=st.integers(2, 5), k=st.integers(1, 4), seed=st.integers(0, 2**31),
+       rule=st.sampled_from(list(RULES)), kind=st.sampled_from(KINDS), mirror=st.booleans())
+def test_coverage_random_weighted_factors(n, k, seed, rule, kind, mirror):
+    # hypothesis: random weighted irregular factors, every explicit eigenvalue inside the radii;
+    # ``mirror`` makes the factor symmetric under reversal (exactly), so the automorphism split runs
     if n**k > 256:
         k = 2
     a, b = RULES[rule]
-    _check_against_explicit(_operands([(n, k)], seed), a, b, kind)
+    ops = _operands([(n, k)], seed)
+    if mirror:
+        adj = ops[0].adjacency
+        adj = (adj + adj[::-1, ::-1]) / 2  # x + y == y + x exactly: reversal is an exact automorphism
+        deg = adj.sum(axis=1)
+        ops = [PowerOperand(adj, (deg + deg[::-1]) / 2, k)]
+    _check_against_explicit(ops, a, b, kind)
 
 
 @pytest.mark.parametrize("spec,rule,kind", [([(3, 2)], "direct", "laplacian"),
@@ -150,11 +158,12 @@ def _frac_matrix(m):
     return np.array([[Fraction(float(v)) for v in row] for row in m], dtype=object)
 
 
-def test_direct_power_of_path_k20_traces_and_nullity():
-    k = 20
+@pytest.mark.parametrize("k,split", [(20, True), (13, False)])
+def test_direct_power_of_path_traces_and_nullity(k, split):
+    # with the reflection split (k = 20) and without it (k = 13, plain Schur-Weyl blocks)
     op = PowerOperand(P3.astype(float), P3.sum(axis=1).astype(float), k)
-    assert plan([op], 0, 1, "laplacian").total_check == 3**k  # exact Schur-Weyl count
-    blks = list(blocks([op], 0, 1, "laplacian"))
+    assert plan([op], 0, 1, "laplacian", automorphisms=split).total_check == 3**k  # exact count
+    blks = list(blocks([op], 0, 1, "laplacian", automorphisms=split))
     assert sum(b.multiplicity * b.values.size for b in blks) == 3**k
     d, adj = _frac_matrix(np.diag(P3.sum(axis=1))), _frac_matrix(P3)
     for p in range(1, 7):

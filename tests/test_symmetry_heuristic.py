@@ -9,7 +9,12 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from test_symmetry_support import explicit_product, random_weighted_graph, reference_eigenvalues
+from test_symmetry_support import (  # noqa: F401
+    explicit_product,
+    one_blas_thread,
+    random_weighted_graph,
+    reference_eigenvalues,
+)
 
 from powerspec.tiers.symmetry import PowerOperand, blocks
 from powerspec.tiers.symmetry.heuristic import (

@@ -6,7 +6,7 @@ import sys
 
 import numpy as np
 import pytest
-from test_symmetry_support import random_weighted_graph
+from test_symmetry_support import one_blas_thread, random_weighted_graph  # noqa: F401
 
 from powerspec.errors import InputError
 from powerspec.tiers.symmetry import PowerOperand, SymmetryError, blocks, parallel, plan

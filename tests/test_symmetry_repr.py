@@ -15,6 +15,7 @@ from fractions import Fraction
 import mpmath
 import numpy as np
 import pytest
+from test_symmetry_support import one_blas_thread  # noqa: F401  (autouse fixture)
 
 from powerspec.tiers.symmetry.combinatorics import (
     conjugate,

@@ -1,4 +1,4 @@
-"""Independent references for the symmetry-tier tests (no powerspec code is used here).
+"""Independent references for the symmetry-tier tests (no powerspec numerics are used here).
 
 Products are built explicitly with numpy Kronecker products from their matrix
 definitions: direct = A (x) B, strong = (A + I) (x) (B + I) - I, Cartesian =
@@ -6,7 +6,8 @@ A (x) I + I (x) B, generalized mix(a, b) = a (A (x) I + I (x) B) + b A (x) B,
 with the degree matrices combined by the same rule.  Reference eigenvalues come
 from numpy's eigvalsh (backward stable: error <= c N u ||M||_2 with a modest c;
 we allow c = 8, a textbook bound quoted from memory) or from python-flint's
-certified ``acb_mat.eig`` at 128 bits.
+certified ``acb_mat.eig`` at 128 bits.  The dense references run with one BLAS thread
+(powerspec's thread switch only; on a shared 2-core machine OpenBLAS threads spin-wait).
 """
 
 from __future__ import annotations
@@ -15,8 +16,18 @@ from functools import reduce
 
 import flint
 import numpy as np
+import pytest
+
+from powerspec.tiers.symmetry.blas import single_blas_thread
 
 U = 2.0**-53
+
+
+@pytest.fixture(autouse=True)
+def one_blas_thread():
+    """Run each symmetry test with one OpenBLAS thread (restored afterwards)."""
+    with single_blas_thread():
+        yield
 
 
 def combine(x: np.ndarray, y: np.ndarray, a: float, b: float) -> np.ndarray:
@@ -47,7 +58,8 @@ def explicit_product(factors: list[tuple[np.ndarray, np.ndarray, int]], a: float
 
 def reference_eigenvalues(m: np.ndarray) -> tuple[np.ndarray, float]:
     """numpy eigvalsh of the explicit matrix and its error allowance 8 N u ||M||_2 (from memory)."""
-    vals = np.linalg.eigvalsh(m)
+    with single_blas_thread():
+        vals = np.linalg.eigvalsh(m)
     return vals, 8 * m.shape[0] * U * float(np.max(np.abs(vals)) + 1e-300)
 
 

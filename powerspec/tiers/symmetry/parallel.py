@@ -19,12 +19,15 @@ optional ``cluster`` extra; imported only then).
 
 from __future__ import annotations
 
+import math
 import os
 from collections.abc import Callable, Iterator
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from multiprocessing import get_context
 
+from powerspec.tiers.symmetry.blas import single_blas_thread
 from powerspec.tiers.symmetry.block import Block, PreparedOperand, compute_block, prepare
+from powerspec.tiers.symmetry.combinatorics import weyl_dimension
 from powerspec.tiers.symmetry.errors import SymmetryError
 from powerspec.tiers.symmetry.plan import PowerOperand, SymmetryPlan, plan
 
@@ -35,8 +38,16 @@ POOL_MIN_WORK = 2 * 10**9
 spawned interpreter) than it saves, and the blocks run in-process."""
 
 
+SMALL_BLOCK = 512
+"""Blocks below this size run with one BLAS thread (threads cost more than they save there)."""
+
+
 def _job(args: tuple) -> Block:
     parts, shapes, a, b, kind, mult = args
+    dim = math.prod(weyl_dimension(lam, op.n) for (op, _), lam in zip(parts, shapes, strict=True))
+    if dim < SMALL_BLOCK:
+        with single_blas_thread():
+            return compute_block(parts, shapes, a, b, kind, mult)
     return compute_block(parts, shapes, a, b, kind, mult)
 
 
