@@ -135,16 +135,18 @@ def _value_lists(operands: list[PowerOperand], rule: str, b: float):
         for combo, mult in _multisets(len(dvals), op.copies):
             if rule == "cartesian":
                 dv = sum(dvals[j] for j in combo)
+                dabs = sum(abs(dvals[j]) for j in combo)  # the scale of the sum's rounding
                 av = sum(avals[j] for j in combo)
                 ae = sum(aerr[j] for j in combo)
                 ae += gamma(op.copies + 1) * sum(abs(avals[j]) for j in combo)
             else:
                 dv = math.prod(dvals[j] for j in combo)
+                dabs = abs(dv)
                 av = math.prod(avals[j] for j in combo)
                 ae = math.prod(abs(avals[j]) + aerr[j] for j in combo)
                 ae -= math.prod(abs(avals[j]) for j in combo)
                 ae += gamma(2 * op.copies + 2) * abs(av)
-            rows.append(((dv, av, ae), mult))
+            rows.append(((dv, dabs, av, ae), mult))
         per_op.append(rows)
     return per_op
 
@@ -170,33 +172,40 @@ def weyl_laplacian_brackets(operands: list[PowerOperand], a: float, b: float) ->
     acc = per_op[0]
     for nxt in per_op[1:]:
         comb = []
-        for (d1, a1, e1), m1 in acc:
-            for (d2, a2, e2), m2 in nxt:
+        for (d1, s1, a1, e1), m1 in acc:
+            for (d2, s2, a2, e2), m2 in nxt:
                 if rule == "cartesian":
-                    comb.append(((d1 + d2, a1 + a2, e1 + e2 + gamma(2) * abs(a1 + a2)), m1 * m2))
+                    err = e1 + e2 + gamma(2) * abs(a1 + a2)
+                    comb.append(((d1 + d2, s1 + s2, a1 + a2, err), m1 * m2))
                 else:
                     err = (abs(a1) + e1) * (abs(a2) + e2) - abs(a1) * abs(a2) + gamma(2) * abs(a1 * a2)
-                    comb.append(((d1 * d2, a1 * a2, err), m1 * m2))
+                    comb.append(((d1 * d2, s1 * s2, a1 * a2, err), m1 * m2))
         acc = comb
     total = sum(op.copies for op in operands)
     rel = gamma(2 * total + 8)
     deg, adj_lo, adj_hi = [], [], []
-    for (dv, av, ae), m in acc:
+    for (dv, dabs, av, ae), m in acc:
+        # rounding allowances are taken on the magnitudes *before* the final subtraction
+        de, ae = rel * dabs, ae + rel * abs(av)
         if rule == "multiplicative":
             s = b ** (total - 1)
-            dv, av, ae = s * dv, s * av, abs(s) * ae
+            dv, av, de, ae = s * dv, s * av, abs(s) * de, abs(s) * ae
         elif rule == "shifted":
-            dv, av, ae = (dv - 1.0) / b, (av - 1.0) / b, ae / abs(b)
-        deg.append((dv, m))
-        adj_lo.append((av - ae - rel * abs(av), m))
-        adj_hi.append((av + ae + rel * abs(av), m))
+            dv, av, de, ae = (dv - 1.0) / b, (av - 1.0) / b, de / abs(b), ae / abs(b)
+        de += 2 * rel * abs(dv)
+        ae += 2 * rel * abs(av)
+        deg.append((dv, de, m))
+        adj_lo.append((av - ae, m))
+        adj_hi.append((av + ae, m))
     deg.sort()
-    dmin = deg[0][0] * (1 - math.copysign(rel, deg[0][0]))
-    dmax = deg[-1][0] * (1 + math.copysign(rel, deg[-1][0]))
+    dmin = min(dv - de for dv, de, _ in deg)
+    dmax = max(dv + de for dv, de, _ in deg)
     amax = max(v for v, _ in adj_hi)
     amin = min(v for v, _ in adj_lo)
-    # bracket 1 follows the sorted degrees; bracket 2 follows -A_K sorted ascending
-    first = [(m, dv - rel * abs(dv) - amax, dv + rel * abs(dv) - amin) for dv, m in deg]
+    # bracket 1 follows the sorted degrees; bracket 2 follows -A_K sorted ascending.  Sorting the
+    # degree midpoints and widening each by its allowance keeps every sorted exact degree inside
+    wide = max(de for _, de, _ in deg)
+    first = [(m, dv - wide - amax, dv + wide - amin) for dv, _, m in deg]
     neg_hi = sorted(((-v, m) for v, m in adj_lo), key=lambda t: t[0])  # upper ends of -A's eigenvalues
     neg_lo = sorted(((-v, m) for v, m in adj_hi), key=lambda t: t[0])  # lower ends, same order
     second = [(m, lo + dmin, hi + dmax) for (lo, m), (hi, _) in zip(neg_lo, neg_hi, strict=True)]
