@@ -84,7 +84,14 @@ class PreparedOperand:
 
 
 def prepare(factors: list[Factor], a: float, b: float, kind: str) -> list[PreparedOperand]:
-    """Certified spectral data of each factor's operand matrix X (see the module docstring)."""
+    """Certified spectral data of each factor's operand matrix X (see the module docstring).
+
+    >>> from powerspec.tiers.symmetry.reduction import Factor
+    >>> k2 = Factor(np.array([[0.0, 2.0], [2.0, 0.0]]), np.array([2.0, 2.0]))
+    >>> op, = prepare([k2], 1, 1, "laplacian")
+    >>> op.spectrum.values.round(12).tolist(), op.spectrum.phi < 1e-15   # eigenvalues of I + A
+    ([-1.0, 3.0], True)
+    """
     rule = rule_name(a, b)
     out = []
     for fac in factors:
@@ -103,7 +110,11 @@ def prepare(factors: list[Factor], a: float, b: float, kind: str) -> list[Prepar
 
 @lru_cache(maxsize=512)
 def gt_module(shape: Partition, n: int) -> GTModule:
-    """The (cached) Gelfand--Tsetlin module of highest weight ``shape`` for GL_n."""
+    """The (cached) Gelfand--Tsetlin module of highest weight ``shape`` for GL_n.
+
+    >>> gt_module((2, 1), 3).dim
+    8
+    """
     return GTModule(shape, n)
 
 

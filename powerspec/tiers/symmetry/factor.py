@@ -56,7 +56,11 @@ class FactorSpectrum:
 
 
 def exact_matrix(x: np.ndarray) -> Callable[[], flint.arb_mat]:
-    """A builder of the exact ball matrix of a float64 matrix (entries are exact binary numbers)."""
+    """A builder of the exact ball matrix of a float64 matrix (entries are exact binary numbers).
+
+    >>> exact_matrix(np.array([[0.1]]))()[0, 0].rad() == 0
+    True
+    """
 
     def build() -> flint.arb_mat:
         return flint.arb_mat([[float(v) for v in row] for row in np.asarray(x, dtype=float)])
@@ -65,7 +69,11 @@ def exact_matrix(x: np.ndarray) -> Callable[[], flint.arb_mat]:
 
 
 def exact_shifted(base: Callable[[], flint.arb_mat], b: float) -> Callable[[], flint.arb_mat]:
-    """A builder of the exact I + b X from a builder of the exact X (ball arithmetic)."""
+    """A builder of the exact I + b X from a builder of the exact X (ball arithmetic).
+
+    >>> float(exact_shifted(exact_matrix(np.array([[2.0]])), 0.5)()[0, 0].mid())
+    2.0
+    """
 
     def build() -> flint.arb_mat:
         x = base()
@@ -77,7 +85,12 @@ def exact_shifted(base: Callable[[], flint.arb_mat], b: float) -> Callable[[], f
 
 
 def exact_normalized(base: Callable[[], flint.arb_mat], deg: np.ndarray) -> Callable[[], flint.arb_mat]:
-    """A builder of the exact D^-1/2 A D^-1/2 (degrees > 0) from a builder of the exact A."""
+    """A builder of the exact D^-1/2 A D^-1/2 (degrees > 0) from a builder of the exact A.
+
+    >>> m = exact_normalized(exact_matrix(np.array([[0.0, 1.0], [1.0, 0.0]])), np.array([1.0, 4.0]))()
+    >>> float(m[0, 1].mid())
+    0.5
+    """
 
     def build() -> flint.arb_mat:
         a = base()
