@@ -260,3 +260,12 @@ def test_negative_coefficients(a, b):
             _check_against_explicit(ops, a, b, kind)
     with pytest.raises(SymmetryError):
         list(blocks(_operands([(3, 2)], seed=21), a, b, "normalized"))
+
+
+@pytest.mark.parametrize("kind", ["laplacian", "normalized"])
+def test_certified_reference_with_automorphism_split(kind):
+    # python-flint certified balls (128 bits) for the strong square of the star, split by a leaf swap
+    ops = [PowerOperand(STAR.astype(float), STAR.sum(axis=1).astype(float), 2)]
+    got_v, got_r, _ = expand(blocks(ops, 1, 1, kind))
+    mids, rads = certified_eigenvalues(explicit_product([(STAR, STAR.sum(axis=1), 2)], 1, 1, kind))
+    assert sorted_cover(got_v, got_r, mids, rads)
