@@ -16,9 +16,11 @@ from fractions import Fraction
 import mpmath
 import numpy as np
 import pytest
+import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from test_symmetry_support import (  # noqa: F401  (one_blas_thread is an autouse fixture)
+    U,
     certified_eigenvalues,
     expand,
     explicit_product,
@@ -262,10 +264,13 @@ def test_negative_coefficients(a, b):
         list(blocks(_operands([(3, 2)], seed=21), a, b, "normalized"))
 
 
-@pytest.mark.parametrize("kind", ["laplacian", "normalized"])
-def test_certified_reference_with_automorphism_split(kind):
-    # python-flint certified balls (128 bits) for the strong square of the star, split by a leaf swap
+@pytest.mark.parametrize("kind", ["laplacian", "signless"])
+def test_exact_reference_with_automorphism_split(kind):
+    # sympy: exact real roots of the characteristic polynomial of the integer matrix of the strong
+    # square of the star (split by a leaf swap here), evaluated to 30 digits
     ops = [PowerOperand(STAR.astype(float), STAR.sum(axis=1).astype(float), 2)]
     got_v, got_r, _ = expand(blocks(ops, 1, 1, kind))
-    mids, rads = certified_eigenvalues(explicit_product([(STAR, STAR.sum(axis=1), 2)], 1, 1, kind))
-    assert sorted_cover(got_v, got_r, mids, rads)
+    m = explicit_product([(STAR, STAR.sum(axis=1), 2)], 1, 1, kind)
+    poly = sympy.Poly(sympy.Matrix(np.rint(m).astype(int).tolist()).charpoly().as_expr())
+    roots = np.array(sorted(float(r.evalf(30)) for r in poly.real_roots()))
+    assert sorted_cover(got_v, got_r, roots, 1e-25 + U * np.abs(roots))

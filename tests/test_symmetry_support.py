@@ -66,9 +66,15 @@ def reference_eigenvalues(m: np.ndarray) -> tuple[np.ndarray, float]:
 def certified_eigenvalues(m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Sorted midpoints and radii of python-flint's certified eigenvalue balls at 128 bits."""
     old = flint.ctx.prec
-    flint.ctx.prec = 128
     try:
-        eig = flint.acb_mat([[float(v) for v in row] for row in m]).eig(multiple=True)
+        for prec in (128, 512):  # near-multiple eigenvalues may need more bits to be isolated
+            flint.ctx.prec = prec
+            try:
+                eig = flint.acb_mat([[float(v) for v in row] for row in m]).eig(multiple=True)
+                break
+            except ValueError:
+                if prec == 512:
+                    raise
         mids = np.array([float(e.real.mid()) for e in eig])
         rads = np.array([float(e.real.rad()) + float(e.imag.rad()) + abs(float(e.imag.mid()))
                          for e in eig])
