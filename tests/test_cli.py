@@ -134,3 +134,46 @@ def test_symbolic_flag_round_trips_through_sympy(capsys):
 def test_latex_needs_symbolic(capsys):
     code, _, err = run(["spectrum", "cart(K(2)^3)", "--latex"], capsys)
     assert code == 2 and "--symbolic" in err
+
+
+# ------------------------------------------------------------------------ --help
+
+
+COMMANDS = ("spectrum", "top", "cdf", "count", "quantile", "moments", "invariants", "plot")
+
+
+@pytest.mark.timeout(20)
+@pytest.mark.parametrize("command", COMMANDS)
+def test_help_documents_positionals_grammar_and_examples(command, capsys):
+    assert main([command, "--help"]) == 0
+    out = capsys.readouterr().out
+    positionals = {"cdf": ["X"], "count": ["A", "B"], "quantile": ["Q"]}.get(command, [])
+    for name in ["EXPR", *positionals]:
+        # every positional is listed with a help line of its own
+        assert any(line.strip().startswith(name + " ") for line in out.splitlines()), name
+    for phrase in ("P(n)", "C(n)", "K(m, n)", "J(n)", "dicycle(n, w=[", "motif()", 'load("file")',
+                   "scale(c, G)", "loops(c, G)", "mix(a, b, G, ...)", "1/50", "10^18",
+                   "examples:", f"powerspec {command} "):
+        assert phrase in out, phrase
+
+
+def test_top_level_help_lists_commands_and_examples(capsys):
+    assert main(["--help"]) == 0
+    out = capsys.readouterr().out
+    assert all(c in out for c in COMMANDS) and "examples:" in out and "cart(G, ...)" in out
+
+
+@pytest.mark.timeout(120)
+def test_every_help_example_runs(tmp_path, monkeypatch, capsys):
+    import shlex
+
+    from powerspec.interfaces.cli import EXAMPLES
+
+    monkeypatch.chdir(tmp_path)  # the plot example writes spectrum.png here
+    for command, examples in EXAMPLES.items():
+        if command == "demo":
+            continue  # run by test_python_dash_m_and_demo
+        for example in examples:
+            code = main(shlex.split(example)[1:])
+            _, err = capsys.readouterr()
+            assert code == 0, (example, err)

@@ -20,6 +20,7 @@ from __future__ import annotations
 import argparse
 import contextlib
 import os
+import re
 import signal
 import sys
 import threading
@@ -79,7 +80,7 @@ EXAMPLES = {
             "powerspec cdf 'direct(K(3)^20)' 0 --method law"],
     "count": ["powerspec count 'cart(K(2)^20)' -0.5 0.5",
               "powerspec count 'cart(C(5)^100)' 0 10 --tol 1e-3"],
-    "quantile": ["powerspec quantile 'cart(C(5)^1000)' 0.9",
+    "quantile": ["powerspec quantile 'cart(C(5)^1000000)' 0.9",
                  "powerspec quantile 'strong(K(3)^30)' 1/2"],
     "moments": ["powerspec moments 'direct(K(1, 3)^20)' --order 6",
                 "powerspec moments 'cart(K(2)^k)' --symbolic --order 2"],
@@ -96,8 +97,16 @@ def _epilog(command: str | None) -> str:
     return text if command == "demo" else GRAMMAR + "\n" + text
 
 
+_NEGATIVE_NUMBER = re.compile(r"^-(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?(?:/[0-9.eE+-]+)?$")
+
+
 class _Parser(argparse.ArgumentParser):
-    """argparse with one-line errors."""
+    """argparse with one-line errors, reading -1e3 and -3/4 as numbers rather than options."""
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        # argparse's own pattern only knows -12 and -1.5; A, B and X may be -1e3 or -1/2.
+        self._negative_number_matcher = _NEGATIVE_NUMBER
 
     def error(self, message: str):  # noqa: D102 - argparse hook
         raise _UsageError(f"{message} (see '{self.prog} --help')")
