@@ -198,6 +198,8 @@ def test_length_cap():
     ("mix(1, 1/2, P(2), P(3), P(2))", "mix(1, 0.5, P(2)^2, P(3))"),
     ("mix(2, 1, P(2), P(2), P(3), P(2))", "mix(2, 1, P(2)^2, P(3), P(2))"),
     ("cart(C(5)^1000000000000000000)", "cart(C(5)^1000000000000000000)"),
+    ("cart(cart(C(4))^2, C(4))", "cart(C(4)^3)"),
+    ("direct(K(2), cart(C(3), C(3)), cart(C(3)^2))", "direct(K(2), cart(C(3)^2)^2)"),
 ])
 def test_equal_operands_merge_into_powers(text, label):
     assert parse(text).label() == label

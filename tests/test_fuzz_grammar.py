@@ -74,7 +74,9 @@ queries = st.one_of(
     st.just(["top", "-m", "2", "--limit", "2000"]),
     st.just(["spectrum", "--limit", "2000"]),
     st.tuples(st.just("cdf"), numbers).map(lambda t: [t[0], t[1], "--limit", "2000"]),
-    st.just(["moments", "--order", "3"]),
+    # --json: the text table's bug with long negative integers has its own xfail test
+    # (test_limits.py::test_long_negative_moment_prints_as_text)
+    st.just(["moments", "--order", "3", "--json"]),
 )
 
 

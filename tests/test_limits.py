@@ -414,6 +414,18 @@ def test_no_warning_reaches_stderr(argv, capsys):
 
 
 @pytest.mark.timeout(QUICK)
+@pytest.mark.xfail(strict=False, reason=(
+    "owner: answers (answers/answer.py). Root cause: _approx_int takes mpmath.log10 of the "
+    "integer, which is complex (mpc) for a negative one, so int(mpmath.floor(...)) raises "
+    "TypeError for any negative integer of more than TEXT_DIGITS digits in a text table; "
+    "found by tests/test_fuzz_grammar.py"))
+def test_long_negative_moment_prints_as_text(capsys):
+    out = assert_answered(run(["moments", "mix(-1, 10000000000, P(1), C(3)^3)", "--order", "3"],
+                              capsys))
+    assert "tr(M^p)" in out
+
+
+@pytest.mark.timeout(QUICK)
 def test_internal_errors_are_one_line_with_status_1(capsys, monkeypatch):
     def broken(*args, **kwargs):
         raise ZeroDivisionError("x" * 10_000)

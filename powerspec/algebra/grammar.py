@@ -28,7 +28,8 @@ operands (same text, blanks ignored) are merged into powers -- all of them in
 associative and commutative up to isomorphism, and only adjacent ones in any
 other ``mix``, whose left fold depends on the order -- so
 ``cart(C(5), C(5), P(3), C(5))`` is ``cart(C(5)^3, P(3))`` and echoes so; an
-equal sub-expression is built once.  A left fold over more than
+equal sub-expression is built once (equal = same text, blanks ignored, or the same
+canonical label after merging).  A left fold over more than
 :data:`~powerspec.algebra.limits.MAX_FOLD_COPIES` copies is refused.  Every
 error names the column; an unknown name gets the closest known one.
 """
@@ -146,7 +147,8 @@ class _Builder:
 
     def __init__(self, base: Path | None):
         self.base = base
-        self.memo: dict[str, Node] = {}
+        self.memo: dict[str, Node] = {}  # call text -> node
+        self.canonical: dict[str, Node] = {}  # label -> node
         self.leaves = 0
 
     def build(self, t) -> Node:
@@ -156,14 +158,16 @@ class _Builder:
             raise ExpressionError(_not_a_graph(t), getattr(t, "col", None))
         if t.key in self.memo:
             return self.memo[t.key]
-        node = self._call(t)
-        if isinstance(node, Leaf):
+        built = self._call(t)
+        # One node per canonical label: cart(C(3), C(3)) and cart(C(3)^2) become the same
+        # node, so that operands written differently still merge.
+        node = self.canonical.setdefault(built.label(), built)
+        if node is built and isinstance(node, Leaf):
             self.leaves += 1
             if self.leaves > MAX_FACTORS:
                 raise ExpressionLimitError(
                     f"the expression has more than {MAX_FACTORS} distinct factors", t.col)
-        if t.key:
-            self.memo[t.key] = node
+        self.memo[t.key] = node
         return node
 
     def _call(self, t: Call) -> Node:
@@ -227,7 +231,9 @@ class _Builder:
         for a in args:
             base, k = (a.base, _power(a.exponent)) if isinstance(a, Pow) else (a, 1)
             node = self.build(base)
-            operands.append([base.key, node, k, a.col])
+            # Equal text, an equal canonical label and a product that collapses to its one
+            # operand all give the same node: merging by node catches them all.
+            operands.append([id(node), node, k, a.col])
         merged = merge_operands(operands, everywhere=comb.associative)
         _check_operands(t, comb, merged)
         if len(merged) == 1 and merged[0][2] == 1:
@@ -237,6 +243,8 @@ class _Builder:
 
 def merge_operands(operands: list[list], everywhere: bool) -> list[list]:
     """Merge ``[key, node, copies, col]`` operands with equal keys by adding their copies.
+
+    Returns the merged list (the input lists are updated in place).
 
     With ``everywhere`` (an associative product) all equal operands merge, at the
     place of the first; otherwise only runs of adjacent equal ones (a left fold
@@ -266,10 +274,11 @@ def _check_operands(t: Call, comb: Combination, merged: list[list]) -> None:
     if len(merged) > MAX_OPERANDS:
         raise ExpressionLimitError(
             f"{t.name}() has {len(merged)} distinct operands, over the cap of {MAX_OPERANDS}", t.col)
-    for key, _, k, col in merged:
+    for _, node, k, col in merged:
         if k > MAX_COPIES:
             raise ExpressionLimitError(
-                f"the copies of {echo(key)} add up to more than 10^18, the most supported", col)
+                f"the copies of {echo(node.label())} add up to more than 10^18, the most "
+                "supported", col)
     if not comb.associative:
         total = sum(k for _, _, k, _ in merged)
         if total > MAX_FOLD_COPIES:
@@ -302,7 +311,7 @@ def _family(t: Call) -> Factor:
     m = ints.get("m")
     entries = {"P": 2 * (n - 1), "C": 2 * n, "J": n * n, "dicycle": n,
                "K": n * (n - 1) if m is None else 2 * m * n}[name]
-    if entries > MAX_FAMILY_ENTRIES:
+    if min(n, m or 1) >= 1 and entries > MAX_FAMILY_ENTRIES:  # smaller n: the family refuses
         shown = f"{name}({n})" if m is None else f"{name}({m}, {n})"
         raise ExpressionLimitError(
             f"{shown} would store {entries:,} matrix entries, over the cap of "

@@ -113,8 +113,9 @@ def _umask() -> int:
 def write_atomic(path: str | os.PathLike, data: str | bytes) -> None:
     """Write ``data`` to ``path`` atomically (see the module docstring); returns None.
 
-    Text is written as UTF-8.  Raises InputError for a refused path or any
-    operating-system error, after removing the temporary file.
+    Text is written as UTF-8 (undecodable bytes kept as they came).  Raises
+    InputError for a refused path or any operating-system error, after removing
+    the temporary file.
 
     >>> import tempfile, os
     >>> d = tempfile.mkdtemp(); target = os.path.join(d, "a.txt")
@@ -124,7 +125,8 @@ def write_atomic(path: str | os.PathLike, data: str | bytes) -> None:
     p, st = check_output_path(path)
     shown = _shown(str(p))
     mode = stat.S_IMODE(st.st_mode) if st is not None else 0o666 & ~_umask()
-    payload = data.encode("utf-8") if isinstance(data, str) else bytes(data)
+    # surrogateescape: a file name read from undecodable bytes is written back as those bytes
+    payload = data.encode("utf-8", "surrogateescape") if isinstance(data, str) else bytes(data)
     folder = p.parent
     try:
         fd, tmp = tempfile.mkstemp(prefix=f".{p.name[:40]}.", suffix=".tmp", dir=folder)
