@@ -114,10 +114,21 @@ def test_family_factor_over_the_entry_cap_is_refused_up_front(capsys):
 
 @pytest.mark.timeout(QUICK)
 @pytest.mark.xfail(strict=False, reason=(
-    "owner: engine (factors/factor.py). Root cause: Factor._compute_eigenvalues falls back to "
-    "dense numpy eigvalsh on the 20001 x 20001 Laplacian of the star (no closed form for the "
-    "Laplacian of an irregular family), O(n^3) time and 3 GB; K(1, n) has the closed form "
-    "0, 1 (n-1 times), n+1"))
+    "owner: engine (factors/factor.py, numbers/convert.py). Root cause: Factor.spectrum turns "
+    "the 10^6 closed-form eigenvalues of P(10^6) into certified balls one Python call at a "
+    "time (convert.to_balls -> _scaled_arb), and Engine.bound asks for that full spectrum "
+    "before the best-first search, which needs only the two largest"))
+def test_top_of_a_large_path_power_answers(capsys):
+    n = 10**6
+    out = assert_answered(run(["top", f"cart(P({n})^2)", "-m", "2", "--json"], capsys))
+    atoms = sorted(json.loads(out)["atoms"], key=lambda a: float(a[0]))
+    l1, l2 = (2 * math.cos(math.pi * j / (n + 1)) for j in (1, 2))
+    # source: P(n) eigenvalues 2cos(pi j/(n+1)) (textbook); Cartesian square: sums of two
+    assert math.isclose(float(atoms[1][0]), 2 * l1, rel_tol=1e-15) and int(atoms[1][1]) == 1
+    assert math.isclose(float(atoms[0][0]), l1 + l2, rel_tol=1e-15) and int(atoms[0][1]) == 2
+
+
+@pytest.mark.timeout(QUICK)
 def test_laplacian_of_a_large_star_answers(capsys):
     out = assert_answered(run(["spectrum", "K(1, 20000)", "--matrix", "laplacian", "--json"],
                               capsys))

@@ -48,7 +48,7 @@ _SYSTEM_ROOTS = ("/proc", "/sys", "/dev")
 
 
 def _shown(path_str: str) -> str:
-    return clip(path_str, 120, tail=True)
+    return clip(path_str, 80, tail=True)
 
 
 def _kind_of(mode: int) -> str:
