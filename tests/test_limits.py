@@ -460,3 +460,20 @@ def test_out_of_memory_does_not_blame_the_limit(capsys, monkeypatch):
     result = run(["spectrum", "cart(C(5)^3)"], capsys)
     assert_refused(result, "out of memory")
     assert "--limit" not in result[2]
+
+
+@pytest.mark.timeout(QUICK)
+def test_forked_workers_die_quietly_on_sigterm(capfd):
+    # The symbolic bridge runs sympy in a forked worker and terminates it on timeout; the
+    # worker inherits the CLI's SIGTERM handler, which must then just let it die.
+    import multiprocessing
+
+    ctx = multiprocessing.get_context("fork")
+    with cli._sigterm_raises():
+        proc = ctx.Process(target=time.sleep, args=(QUICK,), daemon=True)
+        proc.start()
+        time.sleep(0.5)
+        proc.terminate()
+        proc.join()
+    assert proc.exitcode == -signal.SIGTERM
+    assert "Traceback" not in capfd.readouterr().err

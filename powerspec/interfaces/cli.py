@@ -399,7 +399,16 @@ def _quiet() -> Iterator[None]:
         yield
 
 
+_HANDLER_PID: list[int] = []
+
+
 def _raise_terminated(signum, frame):
+    if _HANDLER_PID and os.getpid() != _HANDLER_PID[-1]:
+        # A forked worker (the symbolic bridge's sympy guard) inherited this handler: die
+        # at once, as it would have without it, instead of unwinding with a traceback.
+        signal.signal(signal.SIGTERM, signal.SIG_DFL)
+        os.kill(os.getpid(), signal.SIGTERM)
+        return
     raise _Terminated()
 
 
@@ -409,11 +418,13 @@ def _sigterm_raises() -> Iterator[None]:
     if threading.current_thread() is not threading.main_thread():
         yield
         return
+    _HANDLER_PID.append(os.getpid())
     previous = signal.signal(signal.SIGTERM, _raise_terminated)
     try:
         yield
     finally:
         signal.signal(signal.SIGTERM, previous)
+        _HANDLER_PID.pop()
 
 
 def _silence_stdout() -> None:
