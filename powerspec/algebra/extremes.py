@@ -1,353 +1,477 @@
-"""Extreme eigenvalues of products too large to enumerate: best-first search.
+"""Extreme eigenvalues of products too large to enumerate: certified best-first search.
 
 For an associative product the eigenvalues are indexed by compositions (how
-many copies take each factor eigenvalue); see :mod:`powerspec.powers`.  The
-largest ones are found by a best-first search over compositions:
+many copies take each operand eigenvalue); see :mod:`powerspec.algebra.powers`.
+The largest ones are found by a best-first search over compositions, and
+every value is computed at high precision (Arb balls at 160 bits, exact
+rationals where the operands are), so the top of ``cart(C(9)^(10^9))`` keeps
+its digits *and* its distances to the next eigenvalues:
 
-* **additive rules** (Cartesian): the real part of a composition's value is
-  a sum, so moving one copy from a factor eigenvalue to the next smaller one
-  never increases it; a heap pops compositions in non-increasing real part.
-* **multiplicative rules** (direct, strong, ``mix(1, b)``, ``mix(0, b)``):
-  the search runs over *magnitude classes* in non-increasing log|s|.  Each
-  popped class composition carries the exact distribution of phases (for
-  real spectra: the signs, by parity), computed by the exact engine.  Any
-  unseen eigenvalue has real part at most e^(log|s| of the heap top), which
-  gives a rigorous stopping rule: stop once M distinct candidates have real
-  part above that.  This is why the largest value of lambda^k can come from
-  the most negative lambda when k is even.
+* **additive rules** (Cartesian): moving one copy from an eigenvalue to the
+  next smaller one never increases the real part, so the search pops
+  compositions in non-increasing real part;
+* **multiplicative rules** (direct, strong, ``mix(1, b)``, ``mix(0, b)``): the
+  search runs over *magnitude classes* (operand eigenvalues of identical
+  |s| in the linearisation s) in non-increasing log|s|; each class
+  composition carries its exact sign counts ((P + D)/2 positive, (P - D)/2
+  negative with P = prod (p + q)^c and D = prod (p - q)^c, no enumeration of
+  sign patterns) or, for complex spectra, its exact phase distribution.
 
-Complex spectra are ordered by real part, then imaginary part.  Ties in real
-part between distinct complex values are all reported.  Multiplicities are
-exact integers; one that would have more than :data:`MAX_MULT_BITS` bits is
-refused with :class:`~powerspec.errors.SizeLimitError` rather than computed
-for minutes.
+Stopping is rigorous: every unexplored composition is bounded by the key of
+the heap top plus a bound on the float error of the keys, and the search
+stops once m distinct certified atoms lie strictly beyond that bound.
+Multiplicities are exact integers, kept factored (e.g. ``2^999999999``) when
+astronomically large.
 """
 
 from __future__ import annotations
 
 import heapq
 import math
+from fractions import Fraction
 
 import numpy as np
+from flint import arb, fmpq
 
-from powerspec.algebra.engine import Engine, Leaf, Node
-from powerspec.algebra.kinds import Combination
-from powerspec.algebra.powers import outer, power
-from powerspec.errors import NotExactError, SizeLimitError
-from powerspec.spectra.measures import RTOL, Spectrum, concat, mult_array
+from powerspec.algebra.engine import Engine, affine
+from powerspec.algebra.kinds import DIRECT, MATRIX_RULES, Combination
+from powerspec.algebra.powers import combine, power
+from powerspec.algebra.tree import Leaf, Node, Product
+from powerspec.errors import InputError, NotExactError, SizeLimitError
+from powerspec.numbers.counts import BigCount, power_product
+from powerspec.numbers.hp import HP, as_acb, is_real, real_part, working
+from powerspec.spectra.spectrum import HPValues, Spectrum, mult_array
+
+MAX_STATES = 200_000
+"""Most compositions one best-first search may visit."""
 
 MAX_MULT_BITS = 1 << 23
-"""Largest multiplicity (in bits, about 2.5 million digits) computed exactly."""
+"""Largest multiplicity (in bits) computed by expanding a multinomial with two large parts."""
 
-MAX_STATES = 2_000_000
-"""Most compositions one best-first search may visit."""
+_U = 2.0**-53
 
 
 def extremes(engine: Engine, node: Node, kind: str, m: int, bottom: bool = False):
     """The m largest (smallest with ``bottom``) distinct eigenvalues, exact multiplicities.
 
     Returns ``(spectrum, method)``: a :class:`Spectrum` holding just those
-    atoms (its ``order`` is the sum of their multiplicities) and a one-line
-    description of how they were obtained.
+    atoms (its ``order`` is the sum of their multiplicities), ordered ascending,
+    and a one-line description of how they were obtained.
 
     >>> from powerspec.algebra.grammar import parse
     >>> sp, how = extremes(Engine(), parse("cart(K(2)^1000000000)"), "adjacency", 2)
     >>> sp.atoms()
     [(999999998.0, 1000000000), (1000000000.0, 1)]
     """
-    if m < 1:
-        raise SizeLimitError("ask for at least one eigenvalue (m >= 1)")
-    if engine.fits(node, kind):
-        sp = engine.spectrum(node, kind)
-        return select(sp, m, bottom), "exact enumeration of the full spectrum"
-    try:
-        flat = _flatten(engine, node, kind)
-    except NotExactError:
-        # No combination rule (e.g. the Laplacian of a product with one irregular factor):
-        # the engine may still enumerate the spectrum, and refuses with the reason if not.
+    if not isinstance(m, int) or m < 1:
+        raise InputError(f"ask for at least one eigenvalue (m >= 1), got {m!r}")
+    if isinstance(node, Leaf) or engine.fits(node, kind):
         return select(engine.spectrum(node, kind), m, bottom), "exact enumeration of the full spectrum"
-    if flat is None:
+    try:
+        comb, use, post = engine.linear_form(node, kind)
+    except NotExactError:
+        # e.g. the Laplacian of a product with one irregular factor: enumerate if the engine can
+        return select(engine.spectrum(node, kind), m, bottom), "exact enumeration of the full spectrum"
+    if comb.mode not in ("add", "mul"):
         try:
             sp = engine.spectrum(node, kind)
         except SizeLimitError as exc:
             raise SizeLimitError(
-                f"{node.label()}: extremes need an associative product (cart, direct, strong, "
-                f"mix with a in {{0, 1}}) when the spectrum is this large ({exc})"
-            ) from exc
+                f"{node.label()}: the extremes of a non-associative mix need the full spectrum, which "
+                f"is too large ({exc}); ask for a smaller power") from exc
         return select(sp, m, bottom), "exact enumeration of the full spectrum"
-    comb, parts, post = flat
-    to_shift, to_factor = comb.to_s()
-    s_parts = [(sp.affine(to_shift, to_factor), k) for sp, k in parts]
-    back_shift, back_factor = comb.from_s()
-    total_factor = post[1] * back_factor
-    want_top_s = (not bottom) if total_factor > 0 else bottom
+    parts = _flat_parts(engine, node, use, comb)
+    shift, factor = post
+    up = (factor > 0) != bottom if not isinstance(factor, arb) else (factor > 0) != bottom
     if comb.mode == "add":
-        if not want_top_s:
-            s_parts = [(sp.affine(0.0, -1.0), k) for sp, k in s_parts]
-        found = _best_first_add(s_parts, m)
-        if not want_top_s:
-            found = found.affine(0.0, -1.0)
-        how = "best-first search over compositions (additive rule)"
+        found = _best_first_add(parts, m, up)
+        how = "best-first search over compositions (additive rule), values at 160-bit precision"
     else:
-        found = _best_first_mul(s_parts, m, 1.0 if want_top_s else -1.0, node.order)
-        how = "best-first search over magnitude classes with exact phase counts"
-    result = found.affine(back_shift, back_factor).affine(post[0], post[1])
-    return select(result, m, bottom), how
+        found = _best_first_mul(comb, parts, m, up, node.order)
+        how = ("best-first search over magnitude classes with exact sign or phase counts, values "
+               "at 160-bit precision")
+    if not (shift == 0 and factor == 1):
+        found = _affine_hp(found, shift, factor)
+    return select(found, m, bottom), how
 
 
+def _flat_parts(engine: Engine, node: Product, use: str, comb: Combination):
+    """[(atoms at high precision, multiplicities, copies)]; nested same-rule products flattened."""
+    out = []
+
+    def collect(n: Product, mult: int) -> None:
+        for child, k in n.operands:
+            if isinstance(child, Product) and MATRIX_RULES[use](child.comb) == comb:
+                collect(child, mult * k)
+            else:
+                try:
+                    sp = engine.spectrum(child, use)
+                except SizeLimitError as exc:
+                    raise SizeLimitError(
+                        f"the extremes search needs the spectrum of each operand; {child.label()} is "
+                        f"too large ({exc})") from exc
+                vals = list(sp.hp) if sp.hp is not None else sp.balls()
+                out.append((vals, [int(x) for x in sp.mult.tolist()], mult * k))
+
+    collect(node, 1)
+    return out
+
+
+def _affine_hp(sp: Spectrum, shift, factor) -> Spectrum:
+    if sp.domain != "hp":
+        return affine(sp, shift, factor)
+    sh, fa = _hp(shift), _hp(factor)
+    with working():
+        items = [sh + fa * v for v in sp.values.items]
+    return Spectrum(HPValues(items), sp.mult.copy(), order=sp.order)
+
+
+def _hp(x) -> HP:
+    if isinstance(x, Fraction):
+        return fmpq(x.numerator, x.denominator)
+    return x
+
+
+# ------------------------------------------------------------------ selection
 def select(sp: Spectrum, m: int, bottom: bool) -> Spectrum:
     """The m largest (or smallest) atoms of sp by real part, then imaginary part.
 
-    Atoms whose real part ties (within the merging tolerance) with the last one
-    selected are included too, so a complex-conjugate pair is never split.
+    Atoms whose real part may tie with the last one selected are included too,
+    so a complex-conjugate pair is never split.
     """
     n = len(sp)
-    re = sp.real_parts()
+    re = sp.real_midpoints()
+    rad = sp.radii()
+    cplx = not sp.is_real
+
+    def tie(i: int, j: int) -> bool:
+        return cplx and abs(re[i] - re[j]) <= rad[i] + rad[j]
+
     if not bottom:
         lo = max(0, n - m)
-        while lo > 0 and _same_real(re[lo - 1], re[lo], sp):
+        while lo > 0 and tie(lo - 1, lo):
             lo -= 1
         idx = np.arange(lo, n)
     else:
         hi = min(m, n)
-        while hi < n and _same_real(re[hi], re[hi - 1], sp):
+        while hi < n and tie(hi, hi - 1):
             hi += 1
         idx = np.arange(0, hi)
-    mult = sp.mult[idx]
-    total = int(sum(mult.tolist()))
-    if sp.is_polar:
-        la, t = sp.to_polar()
-        return Spectrum.polar(la[idx], t[idx], mult_array(mult.tolist(), total), order=total)
-    return Spectrum(sp.values[idx], mult_array(mult.tolist(), total), order=total, merge=False)
+    return sp.take(idx)
 
 
-def _same_real(x: float, y: float, sp: Spectrum) -> bool:
-    if sp.is_real or not (np.isfinite(x) and np.isfinite(y)):
-        return False
-    return abs(x - y) <= RTOL * max(abs(x), abs(y)) + (sp.atol or 0.0)
+# --------------------------------------------------------------- additive rule
+def _count_pow(base: int, e: int):
+    return power_product([(base, e)]) if e else 1
 
 
-def _flatten(engine: Engine, node: Node, kind: str):
-    """(combination, [(child spectrum, copies)], (post shift, post factor)) or None."""
-    if isinstance(node, Leaf):
-        return None
-    comb, use, post = engine.linear_form(node, kind)
-    if comb.mode is None:
-        return None
-    parts = [(engine.spectrum(child, use), k) for child, k in node.operands]
-    return comb, parts, post
+def _multinomial(k: int, counts: list[int]):
+    """k! / prod c_i! (sum c_i = k), exact: the product of C(left, c) over all but the largest part.
 
-
-def _check_bits(bits: float, what: str) -> None:
+    Refused (SizeLimitError) when it would have more than MAX_MULT_BITS bits
+    -- several parts of a huge k, which only a very deep search reaches.
+    """
+    big = counts.index(max(counts))
+    bits = (math.lgamma(k + 1) - math.lgamma(counts[big] + 1)
+            - sum(math.lgamma(c + 1) for i, c in enumerate(counts) if i != big)) / math.log(2)
     if bits > MAX_MULT_BITS:
-        digits = int(bits * math.log10(2)) + 1
-        raise SizeLimitError(
-            f"the multiplicity of {what} has about {digits} decimal digits, too many to "
-            f"compute exactly; ask for a smaller power or use the laws tier"
-        )
-
-
-def _log2_multinomial(k: int, counts) -> float:
-    return (math.lgamma(k + 1) - sum(math.lgamma(c + 1) for c in counts)) / math.log(2)
-
-
-def _multinomial(k: int, counts) -> int:
+        raise SizeLimitError("a multiplicity would be a multinomial of more than 2^23 bits "
+                             "(several large parts); ask for fewer eigenvalues")
     out, left = 1, k
-    for c in counts:
-        out *= math.comb(left, c)
-        left -= c
+    for i, c in enumerate(counts):
+        if i != big and c:
+            out *= math.comb(left, c)
+            left -= c
     return out
 
 
-def _start_state(sizes: list[int], parts) -> tuple:
-    """All copies of every operand on its first (most extreme) atom."""
-    start: list[int] = []
-    for r, (_, k) in zip(sizes, parts, strict=True):
-        start.extend([k] + [0] * (r - 1))
-    return tuple(start)
+def _state_mult(state: tuple, parts, offsets) -> object:
+    total: object = 1
+    for j, (_, ms, k) in enumerate(parts):
+        counts = list(state[offsets[j]:offsets[j + 1]])
+        total = total * _multinomial(k, counts)
+        for c, mm in zip(counts, ms, strict=True):
+            if c and mm != 1:
+                total = total * _count_pow(mm, c)
+    return total
 
 
-def _push_successors(state: tuple, offsets, seen: set, heap: list, key) -> None:
-    """Push every state reached by moving one copy to the next atom of its operand."""
+def _start(parts) -> tuple:
+    s: list[int] = []
+    for vals, _, k in parts:
+        s.extend([k] + [0] * (len(vals) - 1))
+    return tuple(s)
+
+
+def _successors(state: tuple, offsets):
     for j in range(len(offsets) - 1):
         for p in range(offsets[j], offsets[j + 1] - 1):
             if state[p]:
                 nxt = list(state)
                 nxt[p] -= 1
                 nxt[p + 1] += 1
-                nxt = tuple(nxt)
-                if nxt not in seen:
-                    seen.add(nxt)
-                    heapq.heappush(heap, (-key(nxt), nxt))
+                yield tuple(nxt)
 
 
-def _best_first_add(parts: list[tuple[Spectrum, int]], m: int) -> Spectrum:
-    """Atoms of the additive combination with the m largest real parts (exact)."""
-    atoms = []  # per operand: values sorted by real part descending, multiplicities
-    for sp, _ in parts:
-        o = np.lexsort((-np.imag(sp.values), -np.real(sp.values)))
-        atoms.append((sp.values[o], [int(x) for x in sp.mult[o].tolist()]))
-    offsets = np.cumsum([0] + [len(v) for v, _ in atoms])
-    reals = np.concatenate([np.real(v) for v, _ in atoms])
-    start = _start_state([len(v) for v, _ in atoms], parts)
+def _best_first_add(parts, m: int, up: bool) -> Spectrum:
+    """Atoms of the additive combination with the m largest (up) or smallest real parts."""
+    sign = 1 if up else -1
+    ordered = []
+    with working():
+        for vals, ms, k in parts:
+            keyed = sorted(zip(vals, ms, strict=True),
+                           key=lambda t: -sign * float(as_acb(t[0]).real.mid()))
+            ordered.append(([v for v, _ in keyed], [mm for _, mm in keyed], k))
+    offsets = np.cumsum([0] + [len(v) for v, _, _ in ordered])
+    flat = [v for vals, _, _ in ordered for v in vals]
+    with working():
+        re = np.array([sign * float(as_acb(v).real.mid()) for v in flat])
+        rad = np.array([float(as_acb(v).real.rad()) + abs(float(as_acb(v).real.mid())) * _U
+                        for v in flat])
+    ks = [k for _, _, k in ordered]
+    eps = sum(k * (float(np.max(np.abs(re[offsets[j]:offsets[j + 1]]))) * 8 * _U
+                   + float(np.max(rad[offsets[j]:offsets[j + 1]])))
+              for j, k in enumerate(ks)) * 1.01 + 1e-300
 
-    def key(state):
-        return float(np.dot(state, reals))
+    def key(state) -> float:
+        return float(np.dot(np.array(state, dtype=float), re))
 
+    start = _start(ordered)
     heap = [(-key(start), start)]
     seen = {start}
-    found_vals, found_mult = [], []
+    found_v: list[HP] = []
+    found_m: list = []
     visited = 0
-    scale = max(1.0, abs(key(start)))
     while heap:
         neg, state = heapq.heappop(heap)
-        level = -neg
         visited += 1
         if visited > MAX_STATES:
-            raise SizeLimitError(f"the extremes search visited more than {MAX_STATES} compositions")
-        val, mult = _state_value_add(state, atoms, parts, offsets)
-        found_vals.append(val)
-        found_mult.append(mult)
-        _push_successors(state, offsets, seen, heap, key)
-        next_level = -heap[0][0] if heap else -math.inf
-        if len(found_vals) >= m and next_level < level - RTOL * scale:
-            sp = Spectrum(np.array(found_vals), mult_array(found_mult))
-            if len(sp) >= m:
-                return sp
-    return Spectrum(np.array(found_vals), mult_array(found_mult))
-
-
-def _state_value_add(state, atoms, parts, offsets):
-    val = 0.0
-    mult = 1
-    bits = 0.0
-    for j, ((_v, ms), (_, k)) in enumerate(zip(atoms, parts, strict=True)):
-        counts = state[offsets[j] : offsets[j + 1]]
-        bits += _log2_multinomial(k, counts) + sum(
-            c * math.log2(mm) for c, mm in zip(counts, ms, strict=True) if c
-        )
-    _check_bits(bits, "an extreme eigenvalue")
-    for j, ((v, ms), (_, k)) in enumerate(zip(atoms, parts, strict=True)):
-        counts = state[offsets[j] : offsets[j + 1]]
-        mult *= _multinomial(k, counts)
-        for c, mm, x in zip(counts, ms, v, strict=True):
-            if c:
-                mult *= mm**c
-                val = val + c * x
-    return val, mult
-
-
-def _classes(sp: Spectrum):
-    """Magnitude classes of the non-zero atoms: [(log|s|, phase spectrum, atom count)]."""
-    la, t = sp.to_polar()
-    nz = ~np.isneginf(la)
-    la, t, mult = la[nz], t[nz], sp.mult[nz]
-    o = np.argsort(-la, kind="stable")
-    la, t, mult = la[o], t[o], mult[o]
-    classes = []
-    i = 0
-    while i < la.size:
-        j = i + 1
-        while j < la.size and abs(la[j] - la[i]) <= RTOL * max(1.0, abs(la[i])):
-            j += 1
-        ms = [int(x) for x in mult[i:j].tolist()]
-        phases = Spectrum.polar(np.zeros(j - i), t[i:j], mult_array(ms))
-        classes.append((float(np.mean(la[i:j])), phases, sum(ms)))
-        i = j
-    return classes
-
-
-def _best_first_mul(parts, m: int, sigma: float, order: int) -> Spectrum:
-    """Atoms of the multiplicative combination with the m largest sigma * real part."""
-    cls = [_classes(sp) for sp, _ in parts]
-    offsets = np.cumsum([0] + [len(c) for c in cls])
-    logs = np.concatenate([[c[0] for c in cj] for cj in cls]) if offsets[-1] else np.zeros(0)
-    has_zero = any(bool(np.any(np.isneginf(sp.logabs))) for sp, _ in parts)
-    if any(len(cj) == 0 for cj in cls):
-        # Every eigenvalue has a zero factor: the product is the zero spectrum.
-        _check_bits(order.bit_length(), "the eigenvalue at s = 0")
-        return Spectrum.from_values([0.0], [order])
-    start = _start_state([len(cj) for cj in cls], parts)
-
-    def key(state):
-        return float(np.dot(state, logs))
-
-    heap = [(-key(start), start)]
-    seen = {start}
-    found: list[Spectrum] = []
-    raw = 0
-    visited = 0
-    counted = 0
-    while heap:
-        neg, state = heapq.heappop(heap)
-        level = -neg
-        visited += 1
-        if visited > MAX_STATES:
-            raise SizeLimitError(
-                f"the extremes search visited more than {MAX_STATES} magnitude combinations "
-                "without isolating the requested eigenvalues"
-            )
-        sp = _state_spectrum_mul(state, cls, parts, offsets, level)
-        counted += sp.order
-        found.append(sp)
-        raw += len(sp)
-        _push_successors(state, offsets, seen, heap, key)
-        if not heap:
+            raise SizeLimitError(f"the extremes search visited more than {MAX_STATES} compositions; "
+                                 "ask for fewer eigenvalues")
+        with working():
+            val = fmpq(0)
+            for c, v in zip(state, flat, strict=True):
+                if c:
+                    val = val + v * c
+        found_v.append(val)
+        found_m.append(_state_mult(state, ordered, offsets))
+        for nxt in _successors(state, offsets):
+            if nxt not in seen:
+                seen.add(nxt)
+                heapq.heappush(heap, (-key(nxt), nxt))
+        if len(found_v) >= m and (not heap or _enough(found_v, found_m, m, sign,
+                                                         -heap[0][0] + eps)):
             break
-        next_level = -heap[0][0]
-        if raw >= m and next_level < level - RTOL * max(1.0, abs(level)):
-            cand = concat(found)
-            keys = _signed_log_real(cand, sigma)
-            if len(keys) >= m:
-                tau = np.sort(keys)[-m]
-                if tau > next_level + RTOL * max(1.0, abs(next_level)):
-                    return cand
-    cand = concat(found)
-    positive = int(np.sum(np.isfinite(_signed_log_real(cand, sigma))))
-    if has_zero and positive < m:
-        # Heap exhausted: every non-zero eigenvalue is in `found`, the rest sit at s = 0.
-        _check_bits(order.bit_length(), "the eigenvalue at s = 0")
-        nonzero_total = math.prod(
-            sum(c[2] for c in cj) ** k for cj, (_, k) in zip(cls, parts, strict=True))
-        cand = concat([cand, Spectrum.from_values([0.0], [order - nonzero_total])])
-    return cand
+    return Spectrum(HPValues(found_v), mult_array(found_m))
 
 
-def _signed_log_real(sp: Spectrum, sigma: float) -> np.ndarray:
-    """log(sigma * Re v) for atoms with sigma * Re v > 0, -inf for the others."""
-    la, t = sp.to_polar()
-    c = sigma * np.cos(2 * np.pi * t)
-    c = np.where(t == 0.0, sigma, np.where(t == 0.5, -sigma, c))
-    c = np.where(np.isin(t, (0.25, 0.75)), 0.0, c)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(c > 0, la + np.log(np.where(c > 0, c, 1.0)), -np.inf)
+def _enough(vals: list[HP], mults: list, m: int, sign: int, bound: float) -> bool:
+    """True when m merged atoms have sign * (real part) certainly above ``bound``."""
+    sp = Spectrum(HPValues(list(vals)), mult_array(mults))
+    with working():
+        b = arb(fmpq(*float(bound).as_integer_ratio()))
+        above = 0
+        for x in sp.values.items:
+            r = real_part(x)
+            r = arb(r) if isinstance(r, fmpq) else r
+            if (r * sign) > b:
+                above += 1
+        return above >= m
 
 
-def _state_spectrum_mul(state, cls, parts, offsets, level) -> Spectrum:
-    bits = 0.0
-    for j, (cj, (_, k)) in enumerate(zip(cls, parts, strict=True)):
-        counts = state[offsets[j] : offsets[j + 1]]
-        bits += _log2_multinomial(k, counts) + sum(
-            c * math.log2(cl[2]) for c, cl in zip(counts, cj, strict=True) if c
-        )
-    _check_bits(bits, "an extreme eigenvalue")
+# ---------------------------------------------------------- multiplicative rule
+class _Class:
+    """Operand eigenvalues sharing one exact |s|: magnitude, sign counts or phase spectrum."""
+
+    __slots__ = ("mag", "log", "log_err", "pos", "neg", "phases")
+
+    def __init__(self, mag: HP, pos: int, neg: int, phases: Spectrum | None):
+        self.mag = mag
+        with working():
+            lg = (arb(mag) if isinstance(mag, fmpq) else mag).log()
+        self.log = float(lg.mid())
+        self.log_err = float(lg.rad()) + abs(self.log) * 4 * _U
+        self.pos, self.neg, self.phases = pos, neg, phases
+
+
+def _classes(vals: list[HP], mults: list[int], shift: Fraction, factor: Fraction):
+    """(classes sorted by |s| descending, number of zero s-values) for one operand.
+
+    A class holds the operand eigenvalues whose |s| balls overlap (x and -x,
+    or values closer than the working precision can separate); its magnitude
+    is the hull of theirs, so every value of a class composition lies in the
+    class magnitude power times its sign or phase -- rigorous, and distinct
+    true values that close would be one atom anyway.
+    """
+    sh, fa = _hp(shift), _hp(factor)
+    zeros = 0
+    real = all(is_real(v) for v in vals)
+    items = []
+    with working():
+        for v, mm in zip(vals, mults, strict=True):
+            s = sh + fa * (real_part(v) if real else v)
+            if isinstance(s, fmpq) and s == 0:
+                zeros += mm
+                continue
+            if as_acb(s).contains(0):
+                raise NotExactError("an operand eigenvalue cannot be separated from zero at 160-bit "
+                                    "precision; the extremes search needs its sign")
+            mag = abs(s) if real else abs(as_acb(s))
+            items.append((mag, s, mm))
+        items.sort(key=lambda t: -float(arb(t[0]).mid()))
+        groups: list[list] = []
+        for mag, s, mm in items:
+            g = groups[-1] if groups else None
+            if g is not None and _overlaps(g[0], mag):
+                g[0] = g[0] if (isinstance(g[0], fmpq) and g[0] == mag) else arb(g[0]).union(arb(mag))
+            else:
+                g = [mag, 0, 0, []]
+                groups.append(g)
+            if real:
+                g[1 if s > 0 else 2] += mm
+            else:
+                g[3].append((as_acb(s) / mag, mm))
+    classes = []
+    for mag, pos, neg, ph in groups:
+        phases = Spectrum.from_hp([p for p, _ in ph], [mm for _, mm in ph]) if ph else None
+        classes.append(_Class(mag, pos, neg, phases))
+    classes.sort(key=lambda c: -c.log)
+    return classes, zeros
+
+
+def _overlaps(a: HP, b: HP) -> bool:
+    if isinstance(a, fmpq) and isinstance(b, fmpq):
+        return a == b
+    return arb(a).overlaps(arb(b))
+
+
+def _best_first_mul(comb: Combination, parts, m: int, up: bool, order) -> Spectrum:
+    """Atoms of a multiplicative combination with the m largest (up) or smallest s-values."""
+    shift, factor = comb.to_s()
+    ops = []
+    zero_free = 1
+    real = True
+    for vals, ms, k in parts:
+        cls, zeros = _classes(vals, ms, shift, factor)
+        ops.append((cls, k))
+        total = sum(ms)
+        zero_free = zero_free * _count_pow(total - zeros, k) if total - zeros else 0
+        real = real and all(c.phases is None for c in cls)
+    # s = shift + factor x: the wanted end of x is the wanted end of s when factor > 0
+    s_up = up if factor > 0 else not up
+    sigma = 1 if s_up else -1
+    offsets = np.cumsum([0] + [len(c) for c, _ in ops])
+    logs = np.array([c.log for cls, _ in ops for c in cls])
+    eps = sum(k * max((c.log_err for c in cls), default=0.0) for cls, k in ops) * 1.01 + 1e-12
+    found_s: list[HP] = []
+    found_m: list = []
+    if any(len(cls) == 0 for cls, _ in ops):
+        return _finish_mul([], [], order, comb)  # every product has a zero factor
+    start = tuple(x for cls, k in ops for x in ([k] + [0] * (len(cls) - 1)))
+
+    def key(state) -> float:
+        return float(np.dot(np.array(state, dtype=float), logs))
+
+    heap = [(-key(start), start)]
+    seen = {start}
+    visited = 0
+    while heap:
+        neg, state = heapq.heappop(heap)
+        visited += 1
+        if visited > MAX_STATES:
+            raise SizeLimitError(f"the extremes search visited more than {MAX_STATES} magnitude "
+                                 "combinations; ask for fewer eigenvalues")
+        for v, mm in _class_values(state, ops, offsets, real):
+            found_s.append(v)
+            found_m.append(mm)
+        for nxt in _successors(state, offsets):
+            if nxt not in seen:
+                seen.add(nxt)
+                heapq.heappush(heap, (-key(nxt), nxt))
+        if heap and _enough_mul(found_s, found_m, m, sigma, -heap[0][0] + eps):
+            return _finish_mul(found_s, found_m, None, comb)
+    # every non-zero value is known; the rest of the spectrum sits at s = 0
+    zero_count = order - zero_free if zero_free else order
+    return _finish_mul(found_s, found_m, zero_count, comb)
+
+
+def _enough_mul(vals: list[HP], mults: list, m: int, sigma: int, log_bound: float) -> bool:
+    """True when m merged s-atoms have sigma * Re(s) certainly above exp(log_bound)."""
+    if len(vals) < m:
+        return False
+    sp = Spectrum(HPValues(list(vals)), mult_array(mults))
+    with working():
+        b = arb(fmpq(*float(log_bound).as_integer_ratio())).exp()
+        above = 0
+        for x in sp.values.items:
+            r = real_part(x)
+            r = arb(r) if isinstance(r, fmpq) else r
+            if r * sigma > b:
+                above += 1
+        return above >= m
+
+
+def _class_values(state: tuple, ops, offsets, real: bool):
+    """The s-values of one class composition with exact multiplicities."""
+    mag: HP = fmpq(1)
+    weight: object = 1
+    diff: object = 1
     phase: Spectrum | None = None
-    weight = 1
-    for j, (cj, (_, k)) in enumerate(zip(cls, parts, strict=True)):
-        counts = state[offsets[j] : offsets[j + 1]]
-        weight *= _multinomial(k, counts)
-        for c, (_, ph, _) in zip(counts, cj, strict=True):
-            if c:
-                pw = power(ph, c, "mul", 4 * MAX_STATES, MAX_STATES)
-                phase = pw if phase is None else _outer_mul(phase, pw)
-    la, t = phase.to_polar()
-    mult = [int(x) * weight for x in phase.mult.tolist()]
-    total = sum(mult)
-    return Spectrum.polar(np.full(la.size, level), t, mult_array(mult, total), order=total)
+    with working():
+        for j, (cls, k) in enumerate(ops):
+            counts = list(state[offsets[j]:offsets[j + 1]])
+            weight = weight * _multinomial(k, counts)
+            diff = diff * _multinomial(k, counts)
+            for c, cl in zip(counts, cls, strict=True):
+                if not c:
+                    continue
+                mag = mag * (cl.mag ** c if isinstance(cl.mag, fmpq) and c * 64 < 1 << 14
+                             else (arb(cl.mag) if isinstance(cl.mag, fmpq) else cl.mag) ** c)
+                if real:
+                    weight = weight * _count_pow(cl.pos + cl.neg, c)
+                    d = cl.pos - cl.neg
+                    diff = diff * (0 if d == 0 else (-1) ** c * _count_pow(-d, c) if d < 0
+                                   else _count_pow(d, c))
+                else:
+                    pw = power(cl.phases, c, DIRECT, 4 * MAX_STATES, MAX_STATES)
+                    phase = pw if phase is None else _mul_spectra(phase, pw)
+        if real:
+            out = []
+            pos = _half(weight + diff)
+            neg = _half(weight - diff)
+            if _positive(pos):
+                out.append((mag, pos))
+            if _positive(neg):
+                out.append((-mag, neg))
+            return out
+        return [(mag * z, mm * weight) for z, mm in zip(phase.balls(), phase.mult.tolist(),
+                                                         strict=True)]
 
 
-def _outer_mul(a: Spectrum, b: Spectrum) -> Spectrum:
-    return outer(a, b, "mul", 4 * MAX_STATES)
+def _mul_spectra(a: Spectrum, b: Spectrum) -> Spectrum:
+    return combine(DIRECT, a, b, 4 * MAX_STATES)
 
 
-__all__ = ["extremes", "select", "Combination", "MAX_MULT_BITS"]
+def _half(x):
+    return x // 2 if isinstance(x, (int, BigCount)) else x
+
+
+def _positive(x) -> bool:
+    return x > 0 if isinstance(x, int) else x.sign() > 0
+
+
+def _finish_mul(found_s, found_m, zero_count, comb: Combination) -> Spectrum:
+    """x = (s - shift) / factor for the found s-values (and the zero atom when known)."""
+    shift, factor = comb.to_s()
+    items, mults = list(found_s), list(found_m)
+    if zero_count is not None and not (isinstance(zero_count, int) and zero_count == 0):
+        items.append(fmpq(0))
+        mults.append(zero_count)
+    back_shift, back_factor = comb.from_s()
+    bs, bf = _hp(back_shift), _hp(back_factor)
+    with working():
+        xs = [bs + bf * s for s in items]
+    return Spectrum(HPValues(xs), mult_array(mults))
+
+
+__all__ = ["MAX_MULT_BITS", "MAX_STATES", "extremes", "select"]

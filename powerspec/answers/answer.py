@@ -2,45 +2,59 @@
 
 An :class:`Answer` prints as a readable table (:meth:`Answer.to_text`) and
 serialises to the stable JSON layout of DESIGN §4 (:meth:`Answer.to_json`).
-Numbers that overflow a double are written as exact-width JSON number
-literals from mpmath (valid JSON; read them with an arbitrary-precision
-parser), never as ``inf``; multiplicities are written as exact integers.
+
+Number rules (text and JSON alike):
+
+* every printed digit is covered: exact values print exactly (integers in
+  full, doubles as their shortest round-trip decimal); balls print with as
+  many significant digits as their certified radius allows, and the JSON
+  ``radii`` list gives, per atom, a radius around the *printed* value;
+* JSON integers with more than 4000 digits, and reals that a standard parser
+  would read as 0 or infinity (beyond 1e-300..1e300 in magnitude), are JSON
+  strings -- decimal digits, the exact factored form of a count such as
+  ``"3^1000000000 - 1"``, or scientific notation that ``decimal.Decimal`` and
+  ``mpmath.mpf`` read; never NaN or Infinity;
+* ``atoms`` are listed in the query's order: ``top`` largest first,
+  ``top --bottom`` smallest first, ``spectrum`` ascending; the text table
+  uses the same order.
 """
 
 from __future__ import annotations
 
+import json
 import math
-import sys
 from dataclasses import dataclass, field
+from fractions import Fraction
 from typing import Any
 
 import mpmath
+from flint import acb, arb, fmpq
 
 from powerspec.errors import InputError
 from powerspec.numbers.counts import BigCount
-from powerspec.spectra.measures import Spectrum
-
-MAX_JSON_DIGITS = 400_000
-"""Integers with more decimal digits are written as a string of their leading digits."""
+from powerspec.numbers.digits import ball_text, int_digits, int_text, json_text, radius_text
+from powerspec.numbers.hp import working
+from powerspec.spectra.spectrum import Spectrum
 
 TEXT_DIGITS = 40
-"""Multiplicities longer than this are abbreviated in the text table (never in JSON)."""
+"""Integers longer than this are abbreviated in the text table (never in JSON)."""
 
 
 @dataclass
 class Answer:
     """The answer to one query.
 
-    ``atoms`` holds a spectrum (for spectrum/top); ``estimate``/``lower``/
-    ``upper`` a bracketed number (cdf/count/quantile); ``moments`` a list of
-    (p, value); ``invariants`` a mapping name -> dict(value, lower, upper,
-    method).  ``inputs`` records the options that produced the answer.
+    ``atoms`` holds a spectrum (for spectrum/top) and ``descending`` its
+    listing order; ``estimate``/``lower``/``upper`` a bracketed number
+    (cdf/count/quantile); ``moments`` a list of (p, value); ``invariants`` a
+    mapping name -> dict(value, lower, upper, method).  ``inputs`` records
+    the options that produced the answer.
     """
 
     query: str
     expression: str
     matrix: str
-    order: int
+    order: Any
     method: str
     atoms: Spectrum | None = None
     estimate: Any = None
@@ -50,138 +64,191 @@ class Answer:
     invariants: dict | None = None
     inputs: dict = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
+    descending: bool = False
+
+    # ------------------------------------------------------------- atoms
+    def listed_atoms(self) -> list[tuple[Any, Any]]:
+        """(certified value, exact multiplicity) pairs in the listing order."""
+        sp = self.atoms
+        pairs = list(zip(sp.balls(), [_plain(m) for m in sp.mult.tolist()], strict=True))
+        return pairs[::-1] if self.descending else pairs
 
     # ------------------------------------------------------------- JSON
     def to_dict(self) -> dict:
-        """The JSON object as Python data (huge numbers as :class:`RawNumber`)."""
+        """The JSON object as Python data (numbers that must stay verbatim as :class:`RawNumber`)."""
         out: dict[str, Any] = {
             "expression": self.expression,
             "matrix": self.matrix,
-            "order": self.order,
+            "order": json_count(self.order),
             "method": self.method,
         }
         if self.atoms is not None:
-            out["atoms"] = [[_json_value(v), m] for v, m in self.atoms.atoms()]
+            atoms, radii = [], []
+            for v, m in self.listed_atoms():
+                jv, r = json_value(v)
+                atoms.append([jv, json_count(m)])
+                radii.append(_json_radius(r))
+            out["atoms"] = atoms
+            out["radii"] = radii
         if self.estimate is not None or self.lower is not None:
-            out["estimate"] = _json_value(self.estimate)
-            out["lower"] = _json_value(self.lower)
-            out["upper"] = _json_value(self.upper)
+            for k in ("estimate", "lower", "upper"):
+                out[k] = json_value(getattr(self, k))[0]
         if self.moments is not None:
-            out["moments"] = [[p, _json_value(v)] for p, v in self.moments]
+            out["moments"] = [[p, json_value(v)[0]] for p, v in self.moments]
         if self.invariants is not None:
             out["invariants"] = {
-                k: {kk: (_json_value(vv) if kk != "method" else vv) for kk, vv in d.items()}
-                for k, d in self.invariants.items()
-            }
+                name: {k: (json_value(v)[0] if k != "method" else v) for k, v in d.items()}
+                for name, d in self.invariants.items()}
         out["query"] = self.query
         if self.inputs:
-            out["inputs"] = self.inputs
+            out["inputs"] = {k: (json_value(v)[0] if _is_number(v) else v)
+                             for k, v in self.inputs.items()}
         if self.notes:
             out["notes"] = self.notes
         return out
 
     def to_json(self) -> str:
-        """Serialise to JSON text (keys of DESIGN §4)."""
+        """Serialise to JSON text (keys of DESIGN §4); Python's json.loads reads it back."""
         return dump_json(self.to_dict()) + "\n"
 
     # ------------------------------------------------------------- text
-    def to_text(self) -> str:
-        """A readable report: header lines, then the table of the answer."""
+    def to_text(self, head: int | None = None) -> str:
+        """A readable report: header lines, then the table (``head`` rows at most, if given)."""
         lines = [f"powerspec {self.query}"]
-        head = [
-            ("expression", self.expression),
-            ("matrix", self.matrix),
-            ("order", f"{_text_int(self.order)} vertices"),
-            ("method", self.method),
-        ]
-        for k, v in head:
+        for k, v in (("expression", self.expression), ("matrix", self.matrix),
+                     ("order", _vertices(self.order)), ("method", self.method)):
             lines.append(f"  {k:<11} {v}")
         if self.atoms is not None:
-            lines.append(f"  {'atoms':<11} {len(self.atoms)} distinct shown, "
-                         f"{_text_int(self.atoms.order)} eigenvalues counted")
-            lines.append("")
-            rows = [(_text_value(v), _text_int(m)) for v, m in reversed(self.atoms.atoms())]
-            w = max([len("eigenvalue")] + [len(a) for a, _ in rows])
-            lines.append(f"  {'eigenvalue':>{w}}  multiplicity")
-            for a, b in rows:
-                lines.append(f"  {a:>{w}}  {b}")
+            lines.extend(self._atom_table(head))
         if self.estimate is not None or self.lower is not None:
             lines.append("")
             for k in ("estimate", "lower", "upper"):
-                lines.append(f"  {k:<11} {_text_value(getattr(self, k))}")
+                lines.append(f"  {k:<11} {value_text(getattr(self, k))}")
         if self.moments is not None:
             lines.append("")
             lines.append(f"  {'p':>4}  tr(M^p)")
             for p, v in self.moments:
-                lines.append(f"  {p:>4}  {_text_value(v)}")
+                lines.append(f"  {p:>4}  {value_text(v)}")
         if self.invariants is not None:
             lines.append("")
             for name, d in self.invariants.items():
-                val = _text_value(d.get("value"))
+                val = value_text(d.get("value"))
                 lo, hi = d.get("lower"), d.get("upper")
-                rng = f"  [{_text_value(lo)}, {_text_value(hi)}]" if lo is not None else ""
+                rng = f"  [{value_text(lo)}, {value_text(hi)}]" if lo is not None or hi is not None \
+                    else ""
                 lines.append(f"  {name:<24} {val}{rng}  ({d.get('method', '')})")
         for n in self.notes:
             lines.append(f"  note: {n}")
         return "\n".join(lines) + "\n"
 
+    def _atom_table(self, head: int | None) -> list[str]:
+        pairs = self.listed_atoms()
+        n = len(pairs)
+        shown = pairs if head is None or n <= head else pairs[:head]
+        total = self.atoms.order
+        lines = [f"  {'atoms':<11} {n} distinct ({_eigenvalues(total)})"]
+        if len(shown) < n:
+            lines.append(f"  {'':<11} showing the first {len(shown)}")
+        rows = []
+        inexact = False
+        for v, m in shown:
+            t, r = ball_text(v)
+            if len(t) > 24 and t.lstrip("-").isdigit():  # a long exact integer: its leading digits
+                t = f"{t[:2]}.{t[2:18]}e+{len(t.lstrip('-')) - 1}" if t.startswith("-") else \
+                    f"{t[:1]}.{t[1:17]}e+{len(t) - 1}"
+            inexact = inexact or r != 0
+            rows.append((t, radius_text(r) if r else "exact", count_text(m)))
+        lines.append("")
+        w = max([len("eigenvalue")] + [len(a) for a, _, _ in rows])
+        wr = max([len("radius")] + [len(b) for _, b, _ in rows])
+        if inexact:
+            lines.append(f"  {'eigenvalue':>{w}}  {'radius':>{wr}}  multiplicity")
+            lines.extend(f"  {a:>{w}}  {b:>{wr}}  {c}" for a, b, c in rows)
+        else:
+            lines.append(f"  {'eigenvalue':>{w}}  multiplicity")
+            lines.extend(f"  {a:>{w}}  {c}" for a, _, c in rows)
+        return lines
 
+
+# ------------------------------------------------------------------ numbers
 class RawNumber(str):
-    """A JSON number literal written verbatim (for values beyond the double range)."""
+    """A JSON number literal written verbatim (certified digits, read back by any parser)."""
 
 
-def _json_value(v: Any) -> Any:
-    if v is None or isinstance(v, bool):
-        return v
+def _plain(m):
+    return m if isinstance(m, BigCount) else int(m)
+
+
+def _is_number(v) -> bool:
+    return isinstance(v, (int, float, Fraction, mpmath.mpf, BigCount)) and not isinstance(v, bool)
+
+
+def json_count(n: Any) -> Any:
+    """An exact count for JSON: a number up to 4000 digits, else a string (digits or factored)."""
+    if isinstance(n, BigCount):
+        return str(n)
+    n = int(n)
+    if int_digits(n) <= 4000:
+        return RawNumber(int_text(n))
+    return int_text(n)
+
+
+def json_value(v: Any) -> tuple[Any, Any]:
+    """(JSON value, radius) of any number powerspec produces; never NaN or Infinity."""
+    if v is None or isinstance(v, (bool, str)):
+        return v, 0
     if isinstance(v, (int, BigCount)):
-        return v
+        return json_count(v), 0
+    if isinstance(v, (fmpq, arb, acb)):
+        if isinstance(v, acb) and not v.imag.is_zero():
+            (a, ra), (b, rb) = json_value(v.real), json_value(v.imag)
+            return [a, b], ra + rb
+        x = v.real if isinstance(v, acb) else v
+        if isinstance(x, fmpq) and x.q == 1:
+            return json_count(int(x.p)), 0
+        text, r = ball_text(x)
+        t, is_num = json_text(text)
+        return (RawNumber(t) if is_num else t), r
+    if isinstance(v, complex) or isinstance(v, mpmath.mpc):
+        return [json_value(v.real)[0], json_value(v.imag)[0]], 0
+    if isinstance(v, Fraction):
+        return json_value(fmpq(v.numerator, v.denominator))
     if isinstance(v, float):
-        if math.isfinite(v):
-            return v
-        raise InputError("internal: a non-finite number reached the output")  # never inf
-    if isinstance(v, complex):
-        return [_json_value(v.real), _json_value(v.imag)]
-    if isinstance(v, mpmath.mpc):
-        return [_json_value(v.real), _json_value(v.imag)]
+        if not math.isfinite(v):
+            raise InputError("internal: a non-finite number reached the output")
+        return v, 0
     if isinstance(v, mpmath.mpf):
-        f = float(v)
-        if math.isfinite(f) and abs(f) < 1e300 and (f != 0.0 or v == 0) and (abs(f) > 1e-300 or f == 0):
-            return f
-        return RawNumber(mpmath.nstr(v, 17, min_fixed=1, max_fixed=0).replace("e+", "e"))
+        if not mpmath.isfinite(v):
+            raise InputError("internal: a non-finite number reached the output")
+        return json_value(_mpf_exact(v))
     if hasattr(v, "__float__"):
-        return _json_value(float(v))
-    return str(v)
+        return json_value(float(v))
+    return str(v), 0
 
 
-def _int_text(n: int) -> str:
-    if n.bit_length() < 13000:
-        return str(n)
-    digits = int(n.bit_length() * math.log10(2)) + 1
-    if digits > MAX_JSON_DIGITS:
-        return '"' + _approx_int(n) + '"'
-    old = sys.get_int_max_str_digits()
-    sys.set_int_max_str_digits(0)
-    try:
-        return str(n)
-    finally:
-        sys.set_int_max_str_digits(old)
+def _mpf_exact(v: mpmath.mpf) -> fmpq | arb:
+    man, exp = v.man_exp
+    man, exp = int(man), int(exp)
+    if abs(exp) < 4096:
+        return fmpq(man * 2 ** max(exp, 0), 2 ** max(-exp, 0))
+    with working():
+        return arb(man) * arb(2) ** exp
 
 
-def _approx_int(n: int) -> str:
-    lg = mpmath.log10(mpmath.mpf(n))
-    e = int(mpmath.floor(lg))
-    mant = mpmath.power(10, lg - e)
-    return f"~{mpmath.nstr(mant, 12)}e{e} (an integer of {e + 1} digits)"
+def _json_radius(r) -> Any:
+    if not r:
+        return 0
+    t = radius_text(r)
+    t2, is_num = json_text(t)
+    return RawNumber(t2) if is_num else t2
 
 
 def dump_json(obj: Any) -> str:
     """JSON text for dicts, lists, str, int, float, bool, None and RawNumber.
 
-    >>> dump_json({"a": [1, 2.5, RawNumber("1e400")]})
-    '{"a": [1, 2.5, 1e400]}'
+    >>> dump_json({"a": [1, 2.5, RawNumber("1.25")]})
+    '{"a": [1, 2.5, 1.25]}'
     """
-    import json
-
     if isinstance(obj, RawNumber):
         return str(obj)
     if isinstance(obj, BigCount):
@@ -189,33 +256,64 @@ def dump_json(obj: Any) -> str:
     if isinstance(obj, bool) or obj is None:
         return json.dumps(obj)
     if isinstance(obj, int):
-        return _int_text(obj)
-    if isinstance(obj, (float, str)):
+        return dump_json(json_count(obj))
+    if isinstance(obj, float):
+        if not math.isfinite(obj):
+            raise InputError("internal: a non-finite number reached the output")
+        return json.dumps(obj)
+    if isinstance(obj, str):
         return json.dumps(obj)
     if isinstance(obj, dict):
         return "{" + ", ".join(f"{json.dumps(str(k))}: {dump_json(v)}" for k, v in obj.items()) + "}"
     if isinstance(obj, (list, tuple)):
         return "[" + ", ".join(dump_json(v) for v in obj) + "]"
-    raise TypeError(f"cannot serialise {type(obj).__name__}")
+    return dump_json(json_value(obj)[0])
 
 
-def _text_int(n) -> str:
+def count_text(n: Any) -> str:
+    """An exact count for text: in full up to 40 digits, else leading digits and the length."""
     if isinstance(n, BigCount):
         return str(n)
-    if n.bit_length() <= 3.33 * TEXT_DIGITS:
+    n = int(n)
+    if n.bit_length() <= 3.32 * TEXT_DIGITS:
         return str(n)
-    return _approx_int(n)
+    d = int_digits(n)
+    with mpmath.workprec(80):
+        lead = mpmath.mpf(n) / mpmath.mpf(10) ** (d - 1)
+    return f"{mpmath.nstr(lead, 12, strip_zeros=False)}e+{d - 1} (an integer of {d} digits)"
 
 
-def _text_value(v: Any) -> str:
+def value_text(v: Any) -> str:
+    """Any number powerspec produces as certified text ("-" for None)."""
     if v is None:
         return "-"
-    if isinstance(v, int):
-        return _text_int(v)
+    if isinstance(v, (int, BigCount)) and not isinstance(v, bool):
+        return count_text(v)
+    if isinstance(v, (fmpq, arb, acb)):
+        return ball_text(v)[0]
+    if isinstance(v, Fraction):
+        return ball_text(fmpq(v.numerator, v.denominator))[0]
     if isinstance(v, float):
         return f"{v:.12g}"
     if isinstance(v, complex):
         return f"{v.real:.12g}{v.imag:+.12g}i"
-    if isinstance(v, (mpmath.mpf, mpmath.mpc)):
+    if isinstance(v, mpmath.mpf):
+        return ball_text(_mpf_exact(v))[0]
+    if isinstance(v, mpmath.mpc):
         return mpmath.nstr(v, 12)
     return str(v)
+
+
+def _vertices(n) -> str:
+    return f"{count_text(n)} vertex" if n == 1 else f"{count_text(n)} vertices"
+
+
+def _eigenvalues(n) -> str:
+    return f"{count_text(n)} eigenvalue" if n == 1 else f"{count_text(n)} eigenvalues counted"
+
+
+# Older spellings kept for the interfaces that import them.
+_text_int = count_text
+_text_value = value_text
+
+__all__ = ["Answer", "RawNumber", "count_text", "dump_json", "json_count", "json_value", "value_text"]

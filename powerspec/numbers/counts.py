@@ -197,6 +197,19 @@ def _settle(terms: dict[tuple, Fraction]) -> int | BigCount:
                 raise ValueError(f"a count came out non-integral: {total}")
             total = total.numerator
         return int(total)
+    # factor out the prime powers common to every term, then fold small remainders
+    primes = set().union(*(dict(k) for k in terms))
+    common = {p: min(dict(k).get(p, 0) for k in terms) for p in primes}
+    common = {p: e for p, e in common.items() if e}
+    inner: dict[tuple, Fraction] = {}
+    for k, v in terms.items():
+        d = {p: e - common.get(p, 0) for p, e in dict(k).items()}
+        key = tuple(sorted((p, e) for p, e in d.items() if e))
+        inner[key] = inner.get(key, 0) + v
+    if common and max(_term_log2(k, v) for k, v in inner.items()) <= EXPAND_BITS:
+        coeff = sum(v * math.prod(p**e for p, e in k) for k, v in inner.items())
+        key, c = _canonical(dict(common), Fraction(coeff))
+        return BigCount({key: c})
     canon: dict[tuple, Fraction] = {}
     for k, v in terms.items():
         key, c = _canonical(dict(k), v)

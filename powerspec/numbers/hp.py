@@ -137,7 +137,9 @@ def cos2pi(t: Fraction) -> fmpq | arb:
     if u in _RATIONAL_COS:
         c = _RATIONAL_COS[u]
         return fmpq(c.numerator, c.denominator)
-    return arb.cos_pi_fmpq(fmpq(2 * t.numerator, t.denominator))
+    if u > Fraction(1, 4):  # cos(pi - x) = -cos(x): symmetric values are exact negations
+        return -cos2pi(Fraction(1, 2) - u)
+    return arb.cos_pi_fmpq(fmpq(2 * u.numerator, u.denominator))
 
 
 def sin2pi(t: Fraction) -> fmpq | arb:

@@ -165,7 +165,7 @@ class Rationals:
             try:
                 out.append(int(v) / self.den)
             except OverflowError:
-                out.append(math.copysign(math.inf, int(v)))
+                out.append(math.inf if int(v) > 0 else -math.inf)
         return np.array(out, dtype=np.float64)
 
     def sort_order(self) -> np.ndarray:

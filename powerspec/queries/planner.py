@@ -16,6 +16,7 @@ from powerspec.algebra.kinds import MATRIX_KINDS
 from powerspec.algebra.moments import MomentEngine
 from powerspec.answers.answer import Answer, _text_int
 from powerspec.errors import InputError, NotExactError, SizeLimitError
+from powerspec.numbers.counts import bit_length
 from powerspec.queries import distribution
 from powerspec.queries.common import matrix_label, resolve
 from powerspec.tiers.momentbounds import DEFAULT_ORDER, cdf_bounds, cdf_bounds_from_moments
@@ -44,7 +45,7 @@ def spectrum(expr, matrix: str = "adjacency", *, limit: int | None = None,
     if bound <= eng.limit and not eng.fits(node, matrix):
         raise SizeLimitError(
             f"the exact spectrum of {node.label()} has up to {bound} distinct eigenvalues whose "
-            f"exact multiplicities (up to {node.order.bit_length()} bits each) would need more "
+            f"exact multiplicities (up to {bit_length(node.order)} bits each) would need more "
             "than 2 GiB; ask for the extremes with 'top'"
         )
     try:
@@ -76,7 +77,7 @@ def top(expr, m: int = 5, matrix: str = "adjacency", *, bottom: bool = False,
     eng = _engine(matrix, limit, degrees)
     sp, how = extremes(eng, node, matrix, m, bottom)
     return Answer("top", node.label(), matrix_label(matrix, node, degrees), node.order,
-                  "exact: " + how, atoms=sp,
+                  "exact: " + how, atoms=sp, descending=not bottom,
                   inputs={"m": m, "bottom": bottom, "limit": eng.limit, "degrees": degrees})
 
 

@@ -94,10 +94,34 @@ def _sum(mult: np.ndarray):
     return total
 
 
-def _sort_key_hp(x: HP) -> tuple[float, float]:
-    with working():
-        z = as_acb(x)
-        return float(z.real.mid()), float(z.imag.mid())
+def _real_key(r) -> tuple:
+    """An exact sort key of a real midpoint of any size: (sign, signed exponent, signed mantissa)."""
+    if isinstance(r, fmpq):
+        num, den = int(r.p), int(r.q)
+        if num == 0:
+            return (0, 0, 0.0)
+        n = abs(num)
+        e = n.bit_length() - den.bit_length()
+        # normalise to 2**(e-1) <= |x| < 2**e, as for the midpoints of balls below
+        if Fraction(n, den) >= Fraction(2) ** e:
+            e += 1
+        frac = float(Fraction(n, den) / Fraction(2) ** e)
+    else:
+        m, ex = r.mid().man_exp()
+        num = int(m)
+        if num == 0:
+            return (0, 0, 0.0)
+        e = int(ex) + num.bit_length()
+        frac = abs(num) / 2.0 ** num.bit_length() if num.bit_length() < 1000 else \
+            float(abs(num) >> (num.bit_length() - 60)) / 2.0**60
+    sg = 1 if num > 0 else -1
+    return (sg, sg * e, sg * frac)
+
+
+def _sort_key_hp(x: HP) -> tuple:
+    if isinstance(x, acb):
+        return _real_key(x.real) + _real_key(x.imag)
+    return _real_key(x) + (0, 0, 0.0)
 
 
 def _overlap(x: HP, y: HP) -> bool:
