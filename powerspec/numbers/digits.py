@@ -92,8 +92,9 @@ def _rounded(x: arb, exact: bool = False) -> tuple[str, mpmath.mpf]:
         mid, r = to_mpmath(x)
         if exact:
             r = mpmath.mpf(0)
-        if mid == 0:
-            return "0", r * (1 + mpmath.mpf(2) ** -50)
+        if mid == 0 or r >= abs(mid):
+            # the ball contains 0: no digit of the midpoint is certain
+            return "0", (r + abs(mid)) * (1 + mpmath.mpf(2) ** -50)
         e10 = int(mpmath.floor(mpmath.log10(abs(mid))))
         if r:
             q = int(mpmath.ceil(mpmath.log10(2 * r)))
@@ -128,7 +129,7 @@ def _format(mid, digits: int, e10: int) -> str:
         return ("-" if neg else "") + s
     s = mpmath.nstr(mid, digits, min_fixed=1, max_fixed=0, strip_zeros=False)
     mant, _, exp = s.partition("e")
-    return f"{mant}e{int(exp):+d}"
+    return f"{mant.rstrip('.')}e{int(exp):+d}"
 
 
 def ball_text(x: HP) -> tuple[str, float]:

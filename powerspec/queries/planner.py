@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 
 from powerspec.algebra.engine import BOUND_CAP, DEFAULT_LIMIT, Engine, Node
-from powerspec.algebra.extremes import extremes
+from powerspec.algebra.extremes import extremes, select
 from powerspec.algebra.kinds import MATRIX_KINDS
 from powerspec.algebra.moments import MomentEngine
 from powerspec.answers.answer import Answer, _text_int
@@ -19,6 +19,7 @@ from powerspec.errors import InputError, NotExactError, SizeLimitError
 from powerspec.numbers.counts import bit_length
 from powerspec.queries import distribution
 from powerspec.queries.common import matrix_label, resolve
+from powerspec.tiers.exact import exact_spectrum
 from powerspec.tiers.momentbounds import DEFAULT_ORDER, cdf_bounds, cdf_bounds_from_moments
 
 
@@ -33,8 +34,10 @@ def _engine(matrix: str, limit: int | None, degrees: str) -> Engine:
 
 
 def spectrum(expr, matrix: str = "adjacency", *, limit: int | None = None,
-             degrees: str = "out") -> Answer:
-    """The full exact spectrum, or SizeLimitError saying what it would need.
+             degrees: str = "out", workers: int = 1, scheduler: str | None = None,
+             progress=None) -> Answer:
+    """The full spectrum (certified atoms, exact multiplicities), or SizeLimitError saying what it
+    would need.
 
     >>> spectrum("cart(K(2)^3)").atoms.atoms()
     [(-3.0, 1), (-1.0, 3), (1.0, 3), (3.0, 1)]
@@ -46,26 +49,25 @@ def spectrum(expr, matrix: str = "adjacency", *, limit: int | None = None,
         raise SizeLimitError(
             f"the exact spectrum of {node.label()} has up to {bound} distinct eigenvalues whose "
             f"exact multiplicities (up to {bit_length(node.order)} bits each) would need more "
-            "than 2 GiB; ask for the extremes with 'top'"
-        )
+            "than 2 GiB; ask for the extremes with 'top'")
     try:
-        sp = eng.spectrum(node, matrix)
+        sp, method = exact_spectrum(eng, node, matrix, workers=workers, scheduler=scheduler,
+                                    progress=progress)
     except SizeLimitError as exc:
         raise SizeLimitError(
             f"the exact spectrum of {node.label()} may hold {_bound_text(bound)} distinct "
             f"eigenvalues ({_text_int(node.order)} vertices), over the limit of {eng.limit} "
             f"({exc}); ask for the extremes with 'top', for distribution questions with "
-            "'cdf', 'count' or 'quantile', or raise --limit"
-        ) from exc
-    method = "exact: eigenvalues combined from the factors' spectra"
-    if len(sp) < bound:
-        method += f" (merged {bound} candidate values to {len(sp)})" if bound < 10**12 else ""
+            "'cdf', 'count' or 'quantile', or raise --limit") from exc
+    if method.startswith("exact: eigenvalues combined") and len(sp) < bound < 10**12:
+        method += f" (merged {bound} candidate values to {len(sp)})"
     return Answer("spectrum", node.label(), matrix_label(matrix, node, degrees), node.order,
                   method, atoms=sp, inputs={"limit": eng.limit, "degrees": degrees})
 
 
 def top(expr, m: int = 5, matrix: str = "adjacency", *, bottom: bool = False,
-        limit: int | None = None, degrees: str = "out") -> Answer:
+        limit: int | None = None, degrees: str = "out", workers: int = 1,
+        scheduler: str | None = None, progress=None) -> Answer:
     """The m largest (or smallest) distinct eigenvalues with exact multiplicities, any power.
 
     >>> top("cart(C(5)^1000)", m=1).atoms.atoms()
@@ -75,9 +77,15 @@ def top(expr, m: int = 5, matrix: str = "adjacency", *, bottom: bool = False,
         raise InputError(f"m must be a positive integer, got {m!r}")
     node = resolve(expr)
     eng = _engine(matrix, limit, degrees)
-    sp, how = extremes(eng, node, matrix, m, bottom)
+    try:
+        sp, how = extremes(eng, node, matrix, m, bottom)
+        how = "exact: " + how
+    except NotExactError:
+        full, how = exact_spectrum(eng, node, matrix, workers=workers, scheduler=scheduler,
+                                   progress=progress)
+        sp = select(full, m, bottom)
     return Answer("top", node.label(), matrix_label(matrix, node, degrees), node.order,
-                  "exact: " + how, atoms=sp, descending=not bottom,
+                  how, atoms=sp, descending=not bottom,
                   inputs={"m": m, "bottom": bottom, "limit": eng.limit, "degrees": degrees})
 
 
