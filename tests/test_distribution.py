@@ -72,52 +72,56 @@ def test_hypercube_count_and_quantile():
 # --------------------------------------------------------------- coverage
 FACTORS = ["P(3)", "K(1, 3)", "C(4)", "C(5)", "K(3)", "K(2)", "motif()",
            "P(4)", "K(2, 3)", "loops(0.5, P(3))", "dicycle(5)"]
-KINDS = ["cart(", "direct(", "strong(", "mix(1, 0.5, ", "mix(0, 2, "]
+KINDS = {"cart(": (1.0, 0.0), "direct(": (0.0, 1.0), "strong(": (1.0, 1.0),
+         "mix(1, 0.5, ": (1.0, 0.5), "mix(0, 2, ": (0.0, 2.0)}
+EXPLICIT_MAX = 1500
 
 
 def _cases(n_cases: int, seed: int = 7):
+    """Random (expression, factor names, copies, (a, b)) with an explicit product of <= 1500 vertices."""
     rng = random.Random(seed)
     out = []
     while len(out) < n_cases:
         f = rng.choice(FACTORS)
-        kind = rng.choice(KINDS)
+        kind = rng.choice(list(KINDS))
         if f == "dicycle(5)" and kind != "cart(":
             continue  # complex spectra under multiplicative rules: exact tier only
-        k = rng.choice([2, 3, 4, 6, 9, 13])
-        extra = rng.choice(["", "", ", C(5)", ", P(3)"])
-        out.append(f"{kind}{f}^{k}{extra})")
+        extra = rng.choice(["", "", "C(5)", "P(3)"])
+        n = ps.parse(f).order
+        top = int(math.log(EXPLICIT_MAX / (ps.parse(extra).order if extra else 1)) / math.log(n))
+        if top < 2:
+            continue
+        k = rng.randint(2, min(top, 9))
+        text = f"{kind}{f}^{k}" + (f", {extra})" if extra else ")")
+        out.append((text, [f] * k + ([extra] if extra else []), KINDS[kind]))
     return out
 
 
-def _truth(spec, x, strict=False):
-    re = spec.real_parts()
-    sel = re < x if strict else re <= x
-    return Fraction(int(sum(m for m, s in zip(spec.mult.tolist(), sel, strict=True) if s)), spec.order)
-
-
 def test_coverage_bracket_and_law_contain_truth():
+    # source: numpy eigvalsh / eigvals on each product built explicitly with scipy.sparse.kron
+    # (tests/reference.fold, a left fold of the generalized product a(A+B) + b AB)
+    from tests.reference import eigenvalues
     worst = {"bracket": 0.0, "law": 0.0}
     checked = 0
-    for expr in _cases(60):
-        q = _Query(expr, "adjacency", "auto", None, None, "out")
-        spec = q.eng.spectrum(q.node, "adjacency")  # exact enumeration (cross-checked below)
-        re = np.unique(spec.real_parts())
+    for expr, names, (ca, cb) in _cases(45):
+        mats = [ps.parse(nm).factor.adjacency.toarray() for nm in names]
+        eig = np.real(eigenvalues(fold(mats, ca, cb)))
+        re = np.unique(np.round(eig, 9))
         mids = (re[1:] + re[:-1]) / 2 if re.size > 1 else re
         rng = np.random.default_rng(len(expr))
-        xs = list(rng.choice(mids, size=min(6, mids.size), replace=False))
-        xs += [float(re[0]) - 1.0, float(re[-1]) + 1.0, float(np.median(re))]
-        tiers = {"bracket": q.bracket(1e-2), "law": q.law()}
-        for name, tier in tiers.items():
-            for x in xs:
-                est, lo, hi = q.x_cdf(tier, float(x))
-                truth = _truth(spec, float(x))
-                assert within(lo, truth, hi), (expr, name, x, lo, float(truth), hi)
-                claimed = max(hi - est, est - lo)
+        xs = list(rng.choice(mids, size=min(5, mids.size), replace=False))
+        xs += [float(re[0]) - 1.0, float(re[-1]) + 1.0, float(np.median(re)) + 1e-7]
+        q = _Query(expr, "adjacency", "auto", None, None, "out")
+        for name, tier in (("bracket", q.bracket(1e-2)), ("law", q.law())):
+            est, lo, hi = q.x_eval(tier, np.array(xs, dtype=float))
+            for x, e, a, b in zip(xs, est, lo, hi, strict=True):
+                truth = float(np.mean(eig <= x))
+                assert a - 1e-12 <= truth <= b + 1e-12, (expr, name, x, a, truth, b)
+                claimed = max(b - e, e - a)
                 if claimed > 0:
-                    worst[name] = max(worst[name], abs(est - float(truth)) / claimed)
+                    worst[name] = max(worst[name], abs(e - truth) / claimed)
                 checked += 1
-    print(f"coverage: {checked} (case, x) checks; worst |error| / claimed bound: {worst}")
-    assert checked >= 900
+    assert checked >= 600
 
 
 @pytest.mark.parametrize("expr,a,b", [
@@ -214,3 +218,99 @@ def test_auto_meets_tol_or_refuses():
         cdf("cart(motif()^10000000)", mean, tol=1e-7)
     # far in the lower tail the law's Chernoff bound alone meets the same tolerance
     assert cdf("cart(motif()^10000000)", 3.0, tol=1e-7).inputs["tier"] == "law"
+
+
+# ------------------------------------------------------------ wrong answers fixed
+def test_decreasing_map_quantiles_normalized_laplacian():
+    # source: numpy eigvalsh of the normalized Laplacian I - D^-1/2 A D^-1/2 of the explicit
+    # Cartesian product K(4) x C(5) (regular of degree 5): the 0.01-quantile is the eigenvalue 0
+    a = fold([ps.K(4).adjacency.toarray(), ps.C(5).adjacency.toarray()], 1.0, 0.0)
+    d = a.sum(axis=1)
+    lap = np.eye(20) - a / np.sqrt(np.outer(d, d))
+    eig = np.sort(np.linalg.eigvalsh(lap))
+    for q in (0.01, 0.3, 0.77):
+        truth = eig[math.ceil(q * 20) - 1]  # inf{x : #{eig <= x} >= 20 q}
+        for method in ("bracket", "law"):
+            ans = quantile("cart(K(4), C(5))", q, "normalized", method=method, limit=5)
+            assert ans.lower <= truth + 1e-9 and truth - 1e-9 <= ans.upper, (q, method)
+    # cdf through the decreasing map as well
+    for x in (0.05, 0.4, 1.2):
+        ans = cdf("cart(K(4), C(5))", x, "normalized", method="law", limit=5)
+        assert ans.lower <= np.mean(eig <= x) <= ans.upper
+
+
+def test_quantile_level_is_the_written_decimal():
+    # source: eigenvalues of P(5) x P(2) are 2cos(pi i/6) +- 1 (path spectra, textbook): the
+    # smallest is -sqrt(3) - 1, which holds exactly 1/10 of the 10 eigenvalues
+    a = quantile("cart(P(5), P(2))", 0.1)
+    assert a.estimate == pytest.approx(-1 - math.sqrt(3), abs=1e-12)
+    assert a.lower <= -1 - math.sqrt(3) <= a.upper
+    assert quantile("cart(P(5), P(2))", "1/10").estimate == a.estimate
+    assert quantile("cart(P(5), P(2))", Fraction(1, 10) + Fraction(1, 10**30)).estimate > -2.7
+
+
+def test_no_warning_nan_or_infinity_in_answers():
+    # source: rigour only -- every answer must be finite, ordered, in [0, 1], and JSON without NaN
+    import json
+    import warnings
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        for expr in ("cart(C(5)^1000000)", "direct(K(3)^1000)", "strong(P(3)^1000)", "cart(K(4), C(5))",
+                     "direct(P(3)^40, C(5))"):
+            for x in (1e308, -1e308, 5e-324, -5e-324, 0.0, 1e-300, -1.0):
+                for method in ("law", "auto"):
+                    a = cdf(expr, x, method=method)
+                    assert 0 <= a.lower <= a.estimate <= a.upper <= 1, (expr, x, method)
+                    json.dumps({"e": a.estimate, "l": float(a.lower), "u": float(a.upper)},
+                               allow_nan=False)
+        for q in (1e-12, 0.5, 1 - 1e-12):
+            a = quantile("strong(P(3)^100000)", q, method="law")
+            assert all(not isinstance(v, float) or math.isfinite(v)
+                       for v in (a.estimate, a.lower, a.upper))
+
+
+# Answers of the previous implementation (commit 7ea1e90, before the law tier was rewritten):
+# (query, expression, point, old estimate, old lower, old upper).  Estimates must be unchanged
+# within the old stated error and the new bounds no wider than the old ones (+ a few percent).
+OLD = [
+    ("cdf", "cart(K(2)^1000)", -40.0, 0.10876245834497804, 0.08793711102657309, 0.11796609970842825),
+    ("cdf", "cart(C(5)^100000)", 500.0, 0.8682235002331402, 0.8664248053889493, 0.8700227173283571),
+    ("cdf", "direct(K(3)^1000)", 1e120, 0.9999965604605017, 0.999996560359502, 0.9999965605625014),
+    ("cdf", "strong(P(3)^100000)", -5.0, 0.24878488412705302, 0.24789762447154964, 0.2496739348162466),
+    ("cdf", "strong(P(3)^100000)", 0.5, 0.7503554005558493, 0.7494666851203282, 0.7512430104153494),
+    ("cdf", "strong(K(1, 3)^5000)", -1000.0, 0.5, 0.49543112057128746, 0.5000000000515),
+    ("cdf", "cart(P(4)^300, C(5))", 3.0, 0.5560745041992863, 0.5227419869736941, 0.5894730748244261),
+    ("cdf", "strong(P(3)^1000000)", 1e100, 0.8127511088061985, 0.8124628172424777, 0.8130272943947917),
+    ("quantile", "cart(K(2)^1000)", 0.01, -74.00000000200004, -95.89678447208821, -61.97166271182513),
+    ("quantile", "cart(C(5)^100000)", 0.05, -735.6010399562279, -743.5159684624618, -727.9097736063358),
+    ("quantile", "strong(P(3)^100000)", 0.9, 1.5115769741356297e83, 4.5398547584898144e82,
+     6.741751429428581e83),
+    ("quantile", "cart(C(5)^1000000000)", 0.3, -23451.903881179125, -23454.381581604357,
+     -23449.426235533378),
+]
+
+
+@pytest.mark.parametrize("row", OLD, ids=[f"{r[0]}-{r[1]}-{r[2]}" for r in OLD])
+def test_rewritten_law_tier_agrees_with_previous_answers(row):
+    query, expr, point, est, lo, hi = row
+    a = (cdf if query == "cdf" else quantile)(expr, point, method="law")
+    assert abs(a.estimate - est) <= (hi - lo) * 1.0001 + 1e-12
+    assert max(a.lower, lo) <= min(a.upper, hi)  # the old and new certified ranges overlap
+    if query == "cdf":
+        assert a.upper - a.lower <= (hi - lo) * 1.02 + 1e-9
+
+
+def test_auto_never_picks_a_tier_ten_times_dearer():
+    # source: the planner's own cost model (measured in benchmarks/distribution.py); the rule
+    # itself: the chosen tier's estimated cost is within 10x of every tier meeting the width
+    for expr, x in (("cart(K(2)^1000)", 0.0), ("cart(C(5)^300)", 1.0),
+                    ("direct(K(3)^1000000000)", 1e100), ("cart(motif()^100000)", 11111.0),
+                    ("strong(P(3)^1000)", 0.0)):
+        q = _Query(expr, "adjacency", "auto", None, None, "out")
+        tier = q.choose(lambda t, q=q, x=x: float(np.ravel(q.x_eval(t, np.array([x]))[2])[0]
+                                                  - np.ravel(q.x_eval(t, np.array([x]))[1])[0]))
+        meet = q.meeting  # estimated costs of the tiers that meet the width
+        if not meet:  # nothing meets the default width: without tol the law answers
+            assert tier.name == "law"
+            continue
+        assert tier.name in meet and meet[tier.name] <= 10 * min(meet.values()), (expr, tier.name, meet)

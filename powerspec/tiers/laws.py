@@ -3,28 +3,30 @@
 Each law is a frozen distribution in the manner of a probability text: a
 small set of primitives (:meth:`Law.cdf`, :meth:`Law.pdf`,
 :meth:`Law.cumulants`) from which :class:`Law` derives ``sf``, ``ppf`` (by
-bracketing root-finding), ``interval``, ``mean``, ``var`` and ``std``.
+the safeguarded secant of :mod:`powerspec.tiers.lawsolve`), ``interval``,
+``mean``, ``var`` and ``std``.
 
 * :class:`Normal`, :class:`Affine` (image under x -> shift + factor x),
   :class:`Mixture` (finite mixture) and :class:`BivariateNormal` (complex
   spectra of directed factors: the real part is its first marginal);
 * :class:`SumLaw` -- the eigenvalue distribution of a Cartesian power (or of a
   sum of several powers): the exact distribution of a sum of independent
-  copies of the factors' eigenvalue distributions.  Its :meth:`SumLaw.cdf` is
-  the best available *estimate* (Edgeworth in the centre, Lugannani--Rice
-  saddlepoint in the tails, continuity-corrected on lattices);
-  :meth:`SumLaw.bounds` gives *rigorous* lower/upper bounds on the true CDF:
-  the Berry--Esseen sup bound (C = 0.4748 for i.i.d. summands,
-  I. Shevtsova 2011; C = 0.5600 for non-identical summands, Shevtsova 2010;
-  the smaller of that and the sum of the per-block i.i.d. bounds is used),
-  the exact support, and the Chernoff bound exp(K(theta) - theta x);
-* :class:`ProductLaw` -- direct / strong / mix(1, b) / mix(0, b) powers in
-  s-space: the exact point mass at zero, exact sign shares, and a normal law
-  for log|s| (a log-normal law of |s|), mixed over the number of negative
-  factors when signs and magnitudes are dependent.
+  copies of the factors' eigenvalue distributions.  :meth:`SumLaw.evaluate`
+  returns the estimate and rigorous bounds of the CDF in one pass (one
+  saddlepoint per point serves both):
 
-All probabilities here are plain floats; bounds are widened by
-:data:`REL_SLACK` for the rounding of the computation itself.
+  - the *estimate* is Edgeworth (two terms) in the centre and Lugannani--Rice
+    in the tails, continuity-corrected on lattices;
+  - the *bounds* are rigorous: the Berry--Esseen sup bound (C = 0.4748 for
+    i.i.d. summands, I. Shevtsova 2011; C = 0.5600 for non-identical summands,
+    Shevtsova 2010; the smaller of that and the sum of the per-block i.i.d.
+    bounds), the exact support, and the Chernoff bound exp(K(theta) - theta x),
+    valid for *any* theta of the right sign (the saddlepoint makes it sharp).
+
+The product laws (direct / strong powers) live in :mod:`powerspec.tiers.lawproduct`.
+Probabilities are floats; bounds are widened by :data:`REL_SLACK` for the
+rounding of their own evaluation.  No scipy.stats: the normal law comes from
+scipy.special (ndtr, ndtri, owens_t), which imports in milliseconds.
 
 >>> law = Normal(0.0, 4.0)
 >>> round(law.cdf(2.0), 6), round(law.ppf(0.5), 9), law.std()
@@ -40,9 +42,9 @@ from fractions import Fraction
 
 import mpmath
 import numpy as np
-from scipy import optimize, special, stats
+from scipy import special
 
-from powerspec.errors import InputError
+from powerspec.tiers.lawsolve import step_bracket
 
 BERRY_ESSEEN_IID = 0.4748
 """Berry--Esseen constant for i.i.d. summands (I. Shevtsova 2011, arXiv:1111.6554)."""
@@ -53,30 +55,27 @@ BERRY_ESSEEN_NONIID = 0.5600
 REL_SLACK = 1e-10
 """Relative widening of law-tier bounds for the floating-point rounding of their evaluation."""
 
+_EPS = float(np.finfo(float).eps)
+
+TINY = 1e-300
+"""Upper bounds that underflow are reported as at least this (never as a false zero)."""
+
 
 def ncdf(z):
-    """Standard normal CDF (vectorised)."""
+    """Standard normal CDF (vectorised, scipy.special.ndtr)."""
     return special.ndtr(z)
 
 
-def _keep(v):
-    """A float, or the mpmath number itself when it is below the double range."""
-    if isinstance(v, np.ndarray) and v.ndim == 0:
-        v = v[()]
-    if isinstance(v, mpmath.mpf) and float(v) == 0 and v != 0:
-        return v
-    return float(v)
+def npdf(z):
+    """Standard normal density (vectorised)."""
+    with np.errstate(over="ignore", under="ignore"):
+        return np.exp(-0.5 * np.square(z)) / math.sqrt(2 * math.pi)
 
 
 def _out(a):
     """A Python float for 0-d results, the array otherwise."""
     a = np.asarray(a, dtype=float)
     return float(a) if a.ndim == 0 else a
-
-
-def npdf(z):
-    """Standard normal density (vectorised)."""
-    return np.exp(-0.5 * np.square(z)) / math.sqrt(2 * math.pi)
 
 
 class Law(ABC):
@@ -110,22 +109,22 @@ class Law(ABC):
         """sqrt(kappa2)."""
         return math.sqrt(self.var())
 
-    def ppf(self, q: float) -> float:
-        """Quantile inf{x : cdf(x) >= q}, by bracket expansion and Brent's method."""
-        if not 0.0 < q < 1.0:
+    def ppf(self, q):
+        """Quantile inf{x : cdf(x) >= q} (vectorised), to 1e-13 standard deviations.
+
+        Safeguarded secant from the normal guess mu + sd * ndtri(q); the result
+        is the verified upper end of the final bracket.
+        """
+        qa = np.asarray(q, dtype=float)
+        if not np.all((qa > 0) & (qa < 1)):
             raise ValueError("q must lie strictly between 0 and 1")
-        mu = self.mean()
+        mu = float(self.mean())
         sd = self.std() if self.var() > 0 else 1.0
-        lo, hi = mu - sd, mu + sd
-        for _ in range(200):
-            if float(self.cdf(lo)) < q:
-                break
-            lo = mu - 2 * (mu - lo)
-        for _ in range(200):
-            if float(self.cdf(hi)) >= q:
-                break
-            hi = mu + 2 * (hi - mu)
-        return float(optimize.brentq(lambda t: float(self.cdf(t)) - q, lo, hi, xtol=1e-13 * sd))
+        guess = mu + sd * special.ndtri(qa)
+        span = 1e3 * sd * (1 + abs(mu) / sd)
+        _, b, _ = step_bracket(lambda y: self.cdf(y), qa, mu - span, mu + span,
+                               xtol=1e-13 * sd * (1 + abs(mu) / sd), guess=guess, step=0.1 * sd)
+        return _out(b.reshape(qa.shape))
 
     def interval(self, confidence: float) -> tuple[float, float]:
         """Central interval holding the given probability."""
@@ -150,6 +149,13 @@ class Normal(Law):
 
     def pdf(self, x):
         return npdf((np.asarray(x, dtype=float) - self.mu) / self.sd) / self.sd
+
+    def ppf(self, q):
+        """Closed form mu + sd * ndtri(q)."""
+        qa = np.asarray(q, dtype=float)
+        if not np.all((qa > 0) & (qa < 1)):
+            raise ValueError("q must lie strictly between 0 and 1")
+        return _out(self.mu + self.sd * special.ndtri(qa))
 
     def cumulants(self):
         return (self.mu, self.variance, 0.0, 0.0)
@@ -212,8 +218,8 @@ class BivariateNormal:
     """Bivariate normal law of (Re, Im) of a complex spectrum; ``real_marginal`` is what cdf uses.
 
     >>> b = BivariateNormal([1.0, 0.0], [[2.0, 0.0], [0.0, 3.0]])
-    >>> b.real_marginal().var(), b.mean()
-    (2.0, (1+0j))
+    >>> b.real_marginal().var(), b.mean(), round(b.cdf(1.0, 0.0), 12)
+    (2.0, (1+0j), 0.25)
     """
 
     def __init__(self, mean: Sequence[float], cov: Sequence[Sequence[float]]):
@@ -230,11 +236,40 @@ class BivariateNormal:
 
     def pdf(self, x, y):
         """Joint density at (x, y) (needs a non-singular covariance)."""
-        return stats.multivariate_normal(self.mu, self.cov).pdf(np.stack([x, y], axis=-1))
+        d = np.stack([np.asarray(x, dtype=float) - self.mu[0], np.asarray(y, dtype=float) - self.mu[1]])
+        det = float(np.linalg.det(self.cov))
+        if not det > 0:
+            raise ValueError("the bivariate density needs a non-singular covariance")
+        inv = np.linalg.inv(self.cov)
+        quad = np.einsum("i...,ij,j...->...", d, inv, d)
+        return np.exp(-0.5 * quad) / (2 * math.pi * math.sqrt(det))
 
     def cdf(self, x, y) -> float:
-        """P(Re <= x, Im <= y)."""
-        return float(stats.multivariate_normal(self.mu, self.cov, allow_singular=True).cdf([x, y]))
+        """P(Re <= x, Im <= y), by Owen's T function (accurate to about 1e-15).
+
+        Phi2(h, k; rho) = (Phi(h) + Phi(k)) / 2 - T(h, a_h) - T(k, a_k) - beta
+        (D. B. Owen 1956; beta = 1/2 when h k < 0 or h k = 0 with h + k < 0).
+        """
+        sx, sy = math.sqrt(self.cov[0, 0]), math.sqrt(self.cov[1, 1])
+        h, k = (float(x) - self.mu[0]) / sx, (float(y) - self.mu[1]) / sy
+        rho = float(self.cov[0, 1]) / (sx * sy) if sx > 0 and sy > 0 else 0.0
+        rho = min(1.0, max(-1.0, rho))
+        if rho >= 1.0 - 1e-15:
+            return float(ncdf(min(h, k)))
+        if rho <= -1.0 + 1e-15:
+            return float(max(0.0, ncdf(h) - ncdf(-k)))
+        r = math.sqrt((1 - rho) * (1 + rho))
+
+        def owen(u, v):  # T(u, (v - rho u) / (u r)); T(0, +-inf) = +-1/4
+            if u == 0:
+                return math.copysign(0.25, v)
+            return float(special.owens_t(u, (v - rho * u) / (u * r)))
+
+        if h == 0 and k == 0:
+            return 0.25 + math.asin(rho) / (2 * math.pi)
+        beta = 0.5 if (h * k < 0 or (h * k == 0 and h + k < 0)) else 0.0
+        val = 0.5 * (float(ncdf(h)) + float(ncdf(k))) - owen(h, k) - owen(k, h) - beta
+        return min(1.0, max(0.0, val))
 
 
 # ----------------------------------------------------------------- sums
@@ -245,9 +280,11 @@ def _block(values, probs, copies, atol):
     m1 = float(p @ v)
     c = v - m1
     mu2, mu3, mu4 = (float(p @ c**j) for j in (2, 3, 4))
+    with np.errstate(divide="ignore"):
+        logp = np.log(p)
     return {"v": v, "p": p, "k": float(copies), "m1": m1, "mu2": mu2, "mu3": mu3, "mu4": mu4,
             "rho": float(p @ np.abs(c) ** 3), "lo": float(v.min()), "hi": float(v.max()),
-            "atol": float(atol), "logp": np.log(p)}
+            "atol": float(atol), "logp": logp}
 
 
 def iid_bound(rho: float, var: float, n: float) -> float:
@@ -290,8 +327,8 @@ class SumLaw(Law):
     >>> q = SumLaw([([-1.0, 1.0], [0.5, 0.5], 100, 0.0)])   # the 100-cube
     >>> q.mean(), q.var(), q.lattice
     (0.0, 100.0, (-100.0, 2.0))
-    >>> lo, hi = q.bounds(0.0)
-    >>> round(float(q.cdf(0.0)), 3), bool(lo[()] < 0.5397946186935895 < hi[()])
+    >>> est, lo, hi = q.evaluate(0.0)
+    >>> round(float(est), 3), bool(lo < 0.5397946186935895 < hi)
     (0.54, True)
     """
 
@@ -301,7 +338,8 @@ class SumLaw(Law):
         slack = 0.0
         for values, probs, copies, atol in parts:
             v = np.asarray(values, dtype=float)
-            slack += float(copies) * float(atol)
+            # the values' own error, and the rounding of the mean sum p v computed from them
+            slack += float(copies) * (float(atol) + 4 * (v.size + 2) * _EPS * float(np.max(np.abs(v))))
             if np.ptp(v) == 0:
                 self.shift += float(copies) * float(v[0])  # a constant summand is exact
             else:
@@ -312,12 +350,14 @@ class SumLaw(Law):
         self.variance = sum(x["k"] * x["mu2"] for x in b)
         self.k3 = sum(x["k"] * x["mu3"] for x in b)
         self.k4 = sum(x["k"] * (x["mu4"] - 3 * x["mu2"] ** 2) for x in b)
+        self.rho = sum(x["k"] * x["rho"] for x in b)
         self.lo = self.shift + sum(x["k"] * x["lo"] for x in b)
         self.hi = self.shift + sum(x["k"] * x["hi"] for x in b)
         self.sd = math.sqrt(self.variance)
         self.degenerate = not b
         self.eps = self._berry_esseen()
         self.lattice = self._lattice()
+        self.width = max((x["hi"] - x["lo"] for x in b), default=1.0)
 
     # ---------------------------------------------------------- primitives
     def cumulants(self):
@@ -330,7 +370,7 @@ class SumLaw(Law):
         per_block = sum(iid_bound(x["rho"], x["mu2"], x["k"]) for x in b)
         if len(b) == 1:
             return per_block
-        joint = BERRY_ESSEEN_NONIID * sum(x["k"] * x["rho"] for x in b) / self.variance**1.5
+        joint = BERRY_ESSEEN_NONIID * self.rho / self.variance**1.5
         return min(1.0, per_block, joint)
 
     def _lattice(self):
@@ -361,24 +401,33 @@ class SumLaw(Law):
             mean = w @ x["v"]
             k0 = k0 + x["k"] * (m[..., 0] + np.log(s))
             k1 = k1 + x["k"] * mean
-            k2 = k2 + x["k"] * (w @ x["v"] ** 2 - mean**2)
+            k2 = k2 + x["k"] * np.maximum(w @ x["v"] ** 2 - mean**2, 0.0)
         return k0, k1, k2
 
-    def saddlepoint(self, x):
-        """theta solving K'(theta) = x (Newton, damped), and a converged mask."""
+    def saddlepoint(self, x, theta0=None):
+        """theta solving K'(theta) = x (damped Newton, vectorised), and a converged mask.
+
+        Points outside the open support have no saddlepoint: their mask is False.
+        """
         x = np.asarray(x, dtype=float)
-        width = max(x_["hi"] - x_["lo"] for x_ in self.blocks)
-        th = np.clip((x - self.mu) / self.variance, -5 / width, 5 / width)
+        width = self.width
+        inside = (x > self.lo) & (x < self.hi)
+        # at an end of the support theta runs off to infinity: its iterates still give valid
+        # (and ever sharper) Chernoff bounds, but never a converged saddlepoint
+        edge = (x == self.lo) | (x == self.hi)
+        xs = np.where(inside | edge, x, self.mu)
+        th = np.clip((xs - self.mu) / self.variance, -5 / width, 5 / width) if theta0 is None \
+            else np.where(inside, theta0, 0.0)
         ok = np.zeros(x.shape, dtype=bool)
         for _ in range(200):
             _, k1, k2 = self._kfun(th)
-            f = k1 - x
-            ok = np.abs(f) <= 1e-9 * (self.sd + np.abs(x) * 1e-3)
+            f = k1 - xs
+            ok = np.abs(f) <= 1e-9 * (self.sd + np.abs(xs) * 1e-3)
             if np.all(ok):
                 break
             step = np.clip(f / np.maximum(k2, 1e-300), -2 / width, 2 / width)
             th = np.where(ok, th, th - step)
-        return th, ok
+        return th, ok & inside
 
     def chernoff(self, x, side: int):
         """Rigorous Markov--Chernoff bound exp(K(theta) - theta x): P(S <= x) (side -1), P(S >= x) (+1).
@@ -387,12 +436,13 @@ class SumLaw(Law):
         """
         x = np.asarray(x, dtype=float)
         th, _ = self.saddlepoint(x)
+        return np.exp(np.minimum(self._chernoff_log(th, x, side), 0.0))
+
+    def _chernoff_log(self, th, x, side):
         th = np.minimum(th, 0.0) if side < 0 else np.maximum(th, 0.0)
         k0, _, _ = self._kfun(th)
         expo = k0 - th * x
-        expo = expo + 1e-12 * (np.abs(k0) + np.abs(th * x)) + 1e-12
-        self._last_log = np.minimum(expo, 0.0)
-        return np.minimum(1.0, np.exp(np.minimum(expo, 0.0)))
+        return expo + 1e-12 * (np.abs(k0) + np.abs(th * x)) + 1e-12
 
     # ---------------------------------------------------------- estimates
     def _edgeworth(self, z):
@@ -411,28 +461,79 @@ class SumLaw(Law):
         return origin + (n + 0.5) * d, d
 
     def cdf(self, x, strict: bool = False):
-        """Best estimate of P(S <= x) (P(S < x) when strict): not a bound.
+        """Best estimate of P(S <= x) (P(S < x) when strict): not a bound (see :meth:`evaluate`)."""
+        return self.evaluate(x, strict)[0]
 
-        Edgeworth (two terms) for |z| < 2, Lugannani--Rice beyond; both at the
-        continuity-corrected point on lattices (Daniels' second correction in
-        the tails).  Values below 1e-300 come from mpmath (as floats, possibly 0
-        only when below the double range).
+    def bounds(self, x):
+        """Rigorous (lower, upper) for both P(S <= x) and P(S < x) (see :meth:`evaluate`)."""
+        _, lo, hi, _ = self.evaluate(x, False, with_log=True)
+        return lo, hi
+
+    def evaluate(self, x, strict: bool = False, with_log: bool = False):
+        """(estimate, lower, upper) of P(S <= x) (P(S < x) if strict), elementwise, in one pass.
+
+        The estimate is Edgeworth (two terms) for |z| < 2 and Lugannani--Rice
+        beyond (at the continuity-corrected point on lattices); lower/upper are
+        rigorous: Berry--Esseen with the exact mean and variance, Chernoff
+        tails at the same saddlepoint, the exact support (with the values'
+        rounding allowance), widened by REL_SLACK.  Upper bounds that underflow
+        stay at least :data:`TINY`.  With ``with_log`` a fourth array holds the
+        natural log of an upper bound (the Chernoff exponent where that is the
+        smaller one), for callers that report bounds below the double range.
         """
         x = np.asarray(x, dtype=float)
+        with np.errstate(all="ignore"):
+            return self._evaluate(x, strict, with_log)
+
+    def _evaluate(self, x, strict, with_log):
         if self.degenerate:
-            return (x > self.shift if strict else x >= self.shift).astype(float)
+            est = (x > self.shift if strict else x >= self.shift).astype(float)
+            lo = (x > self.shift + self.slack).astype(float)
+            hi = (x >= self.shift - self.slack).astype(float)
+            out = (est, lo, hi)
+            return out + (np.log(np.maximum(hi, TINY)),) if with_log else out
         xc, d = self._corrected_point(x, strict)
         z = (xc - self.mu) / self.sd
         est = self._edgeworth(z)
-        tail = (np.abs(z) >= 2) & (xc > self.lo) & (xc < self.hi)
-        if np.any(tail):
-            est = np.where(tail, self._lugannani_rice(np.where(tail, xc, self.mu + 3 * self.sd), d), est)
+        xl, xh = x - self.slack, x + self.slack
+        lo = ncdf((xl - self.mu) / self.sd) - self.eps
+        hi = ncdf((xh - self.mu) / self.sd) + self.eps
+        log_hi = np.log(np.maximum(hi, TINY))
+        below, above = xh < self.mu, xl > self.mu
+        tail_est = (np.abs(z) >= 2) & (xc > self.lo) & (xc < self.hi)
+        need = (below | above) & (x >= self.lo - self.slack) & (x <= self.hi + self.slack)
+        # Chernoff cannot beat a small Berry-Esseen bound within 1.5 sd of the mean (its rate is
+        # about z^2 / 2 there): skipping it costs no tightness and saves a saddlepoint
+        if self.eps < 0.05:
+            need &= np.abs((x - self.mu) / self.sd) >= 1.5
+        if np.any(need | tail_est):
+            # one saddlepoint per point serves the Chernoff bounds (any theta of the right sign is
+            # valid) and, off lattices, the Lugannani-Rice estimate
+            th, ok = self.saddlepoint(np.where(need | tail_est, x, self.mu))
+            lh = self._chernoff_log(th, xh, -1)
+            ll = self._chernoff_log(th, xl, 1)
+            use_h = need & below & (lh < log_hi)
+            hi = np.where(use_h, np.exp(np.minimum(lh, 0.0)), hi)
+            log_hi = np.where(use_h, lh, log_hi)
+            lo = np.where(need & above, np.maximum(lo, 1.0 - np.exp(np.minimum(ll, 0.0))), lo)
+            if np.any(tail_est):
+                if d is not None:  # lattice: the saddlepoint of the corrected point
+                    th, ok = self.saddlepoint(np.where(tail_est, xc, self.mu))
+                lr = self._lugannani_rice(np.where(tail_est, xc, self.mu + 3 * self.sd), th, ok, d)
+                est = np.where(tail_est, lr, est)
         est = np.where(x < self.lo - self.slack, 0.0, est)
         est = np.where(x >= self.hi + self.slack, 1.0, est)
-        return np.clip(est, 0.0, 1.0)
+        lo = np.where(xl > self.hi, 1.0, lo)
+        hi = np.where(xh < self.lo, 0.0, hi)
+        log_hi = np.where(xh < self.lo, -np.inf, log_hi)
+        lo = np.clip(lo * (1 - REL_SLACK) - REL_SLACK * 1e-3, 0.0, 1.0)
+        hi = np.clip(hi * (1 + REL_SLACK), 0.0, 1.0)
+        hi = np.where((hi < TINY) & (xh >= self.lo), TINY, hi)  # an underflowed bound is not zero
+        log_hi = log_hi + 2 * REL_SLACK
+        est = np.clip(np.nan_to_num(est, nan=0.5), lo, hi)
+        return (est, lo, hi, log_hi) if with_log else (est, lo, hi)
 
-    def _lugannani_rice(self, x, d):
-        th, ok = self.saddlepoint(x)
+    def _lugannani_rice(self, x, th, ok, d):
         k0, _, k2 = self._kfun(th)
         arg = np.maximum(2 * (th * x - k0), 0.0)
         w = np.sign(th) * np.sqrt(arg)
@@ -440,8 +541,7 @@ class SumLaw(Law):
             u = th * np.sqrt(k2)
         else:
             u = 2 * np.sinh(th * d / 2) * np.sqrt(k2) / d
-        with np.errstate(divide="ignore", invalid="ignore"):
-            est = ncdf(w) + npdf(w) * (1 / w - 1 / u)
+        est = ncdf(w) + npdf(w) * (1 / w - 1 / u)
         far = ok & (w < -30)
         for i in np.flatnonzero(far):  # underflow region: mpmath
             wi, ui = mpmath.mpf(float(w.flat[i])), mpmath.mpf(float(u.flat[i]))
@@ -454,150 +554,8 @@ class SumLaw(Law):
         """Normal density with the exact mean and variance (estimate)."""
         return npdf((np.asarray(x, dtype=float) - self.mu) / self.sd) / self.sd
 
-    # ---------------------------------------------------------- bounds
-    def bounds(self, x):
-        """Rigorous (lower, upper) for both P(S <= x) and P(S < x).
-
-        Berry--Esseen (exact mean and variance), exact support [lo, hi] (with
-        the values' rounding allowance), Chernoff tails; widened by REL_SLACK.
-        """
-        x = np.asarray(x, dtype=float)
-        if self.degenerate:
-            lo = (x > self.shift + self.slack).astype(float)
-            hi = (x >= self.shift - self.slack).astype(float)
-            return lo, hi
-        xl, xh = x - self.slack, x + self.slack
-        lo = ncdf((xl - self.mu) / self.sd) - self.eps
-        hi = ncdf((xh - self.mu) / self.sd) + self.eps
-        below = xh < self.mu
-        above = xl > self.mu
-        log_h = None
-        if np.any(below | above):
-            ch_h = self.chernoff(np.where(below, xh, self.mu - self.sd), -1)
-            log_h = self._last_log
-            ch_l = self.chernoff(np.where(above, xl, self.mu + self.sd), 1)
-            hi = np.where(below, np.minimum(hi, ch_h), hi)
-            lo = np.where(above, np.maximum(lo, 1.0 - ch_l), lo)
-        lo = np.where(xl > self.hi, 1.0, lo)
-        hi = np.where(xh < self.lo, 0.0, hi)
-        lo = np.clip(lo * (1 - REL_SLACK) - REL_SLACK * 1e-3, 0.0, 1.0)
-        hi = np.clip(hi * (1 + REL_SLACK) + np.where(hi > 0, 1e-300, 0.0), 0.0, 1.0)
-        if log_h is not None:
-            under = below & (hi == 0) & ~(xh < self.lo)
-            if np.any(under):
-                # The Chernoff bound is below the double range: keep it as an mpmath number.
-                hi = np.array(hi, dtype=object)
-                for i in np.flatnonzero(under):
-                    hi.flat[i] = mpmath.exp(mpmath.mpf(float(np.ravel(log_h)[i]))) * (1 + REL_SLACK)
-                hi = hi.reshape(np.shape(x)) if np.ndim(x) else hi.flat[0]
-        return lo, hi
-
-
-# ------------------------------------------------------------- products
-class ProductLaw(Law):
-    """Law of S = product of independent factor values (s-space of a multiplicative rule).
-
-    S = 0 with the exact probability ``zero``.  Given S != 0, sign and log|S|
-    are described by ``components``, a list of (w_pos, w_neg, L) with L a
-    :class:`SumLaw` for log|S|: P(S > 0, log|S| <= u | S != 0) = sum w_pos
-    L(u), likewise for S < 0 -- one component with independent signs is the
-    log-normal law of |S| with exact sign shares.  When signs depend on
-    magnitudes the law is a mixture over the number j of negative factors,
-    given as ``window``: arrays ``wp, wn, mu, var, eps`` (one normal law
-    N(mu_j, var_j) with Berry--Esseen bound eps_j per j; var_j = 0 is an exact
-    point) and ``slack`` (rounding allowance in u).  ``extra`` is the
-    probability of the j outside the window (dropped from lower bounds, added
-    to upper bounds).
-
-    >>> L = SumLaw([([0.0, math.log(2)], [0.5, 0.5], 10, 0.0)])
-    >>> law = ProductLaw(0.0, [(0.5, 0.5, L)])
-    >>> round(float(law.cdf(0.0)), 12), round(float(law.cdf(-2.0 ** 11)), 12)
-    (0.5, 0.0)
-    """
-
-    def __init__(self, zero: float, components=(), window: dict | None = None, extra: float = 0.0):
-        self.zero = float(zero)
-        self.components = list(components)
-        self.window = window
-        self.extra = float(extra)
-        self.nonzero = 1.0 - self.zero
-
-    def _neg_total(self) -> float:
-        t = sum(c[1] for c in self.components)
-        if self.window is not None:
-            t += float(np.sum(self.window["wn"]))
-        return t
-
-    def _window_g(self, u: float, strict: bool):
-        """Per-j (estimate, lower, upper) of P(log|S| <= u | j) (or < u)."""
-        w = self.window
-        mu, var, eps, sl = w["mu"], w["var"], w["eps"], w["slack"]
-        sd = np.sqrt(var)
-        pos = var > 0
-        with np.errstate(divide="ignore", invalid="ignore"):
-            z = np.where(pos, (u - mu) / np.where(pos, sd, 1.0), 0.0)
-            zl = np.where(pos, (u - sl - mu) / np.where(pos, sd, 1.0), 0.0)
-            zh = np.where(pos, (u + sl - mu) / np.where(pos, sd, 1.0), 0.0)
-        tie = np.abs(u - mu) <= sl
-        step_est = np.where(tie, 0.0 if strict else 1.0, (u > mu).astype(float))
-        est = np.where(pos, ncdf(z), step_est)
-        lo = np.where(pos, np.maximum(ncdf(zl) - eps, 0.0), (u - sl > mu).astype(float))
-        hi = np.where(pos, np.minimum(ncdf(zh) + eps, 1.0), (u + sl >= mu).astype(float))
-        return est, lo, hi
-
-    def evaluate(self, sign: int, u: float, strict: bool = False):
-        """(estimate, lower, upper) of P(S <= t) (P(S < t) if strict), t = sign * exp(u)."""
-        nz = self.nonzero
-        if sign == 0:
-            base = nz * self._neg_total() + (0.0 if strict else self.zero)
-            return base, base, min(1.0, base + self.extra)
-        parts = []  # (weights, est, lo, hi) of G = P(log|S| <= u) (strict: < u) per component
-        for wp, wn, law in self.components:
-            e = float(law.cdf(u, strict)) if sign > 0 else float(law.cdf(u, not strict))
-            bl, bh = law.bounds(u)
-            parts.append((wp if sign > 0 else wn, e, float(bl), _keep(bh)))
-        if self.window is not None:
-            e, bl, bh = self._window_g(u, strict if sign > 0 else not strict)
-            parts.append((self.window["wp"] if sign > 0 else self.window["wn"], e, bl, bh))
-        if sign > 0:
-            base = self.zero + nz * self._neg_total()
-            est = base + nz * sum(float(np.sum(w * e)) for w, e, _, _ in parts)
-            lo = base + nz * sum(float(np.sum(w * b)) for w, _, b, _ in parts)
-            hi = base + nz * sum(_keep(np.sum(w * b)) for w, _, _, b in parts)
-        else:
-            # S <= t < 0  <=>  log|S| >= u: the complement of G within the negative mass.
-            est = nz * sum(float(np.sum(w * (1 - e))) for w, e, _, _ in parts)
-            lo = nz * sum(float(np.sum(w * (1 - b))) for w, _, _, b in parts)
-            hi = nz * sum(float(np.sum(w * (1 - b))) for w, _, b, _ in parts)
-        hi = min(1.0, hi * (1 + REL_SLACK) + self.extra + (1e-300 if hi > 0 else 0.0))
-        lo = max(0.0, lo * (1 - REL_SLACK))
-        return min(max(est, lo), hi), lo, hi
-
-    def cdf(self, x, strict: bool = False):
-        x = float(x)
-        if x == 0:
-            return self.evaluate(0, 0.0, strict)[0]
-        return self.evaluate(1 if x > 0 else -1, math.log(abs(x)), strict)[0]
-
-    def pdf(self, x):
-        raise InputError("the product law has a point mass at zero and no density; use cdf")
-
-    def cumulants(self):
-        """Mean and variance of S under the log-normal approximation (mpmath numbers)."""
-        m1 = m2 = mpmath.mpf(0)
-        comps = [(wp, wn, law.mu, law.variance) for wp, wn, law in self.components]
-        if self.window is not None:
-            w = self.window
-            comps += list(zip(w["wp"], w["wn"], w["mu"], w["var"], strict=False))
-        for wp, wn, mu, v in comps:
-            mu, v = mpmath.mpf(float(mu)), mpmath.mpf(float(v))
-            m1 += float(wp - wn) * mpmath.exp(mu + v / 2)
-            m2 += float(wp + wn) * mpmath.exp(2 * mu + 2 * v)
-        m1, m2 = self.nonzero * m1, self.nonzero * m2
-        return (m1, m2 - m1**2)
-
 
 __all__ = [
     "BERRY_ESSEEN_IID", "BERRY_ESSEEN_NONIID", "Law", "Normal", "Affine", "Mixture",
-    "BivariateNormal", "SumLaw", "ProductLaw", "iid_bound", "lattice_span",
+    "BivariateNormal", "SumLaw", "iid_bound", "lattice_span", "ncdf", "npdf", "REL_SLACK", "TINY",
 ]
