@@ -401,7 +401,7 @@ def finite_spectrum(node: Node, kind: str = "adjacency") -> list[tuple[sympy.Exp
 
 
 def symbolic_family(text: str, kind: str = "adjacency") -> SpectrumFamily:
-    """Shortcut: :func:`spectrum_family` of :func:`~powerspec.algebra.symbolic_tree.symbolic_expression`."""
+    """Shortcut: :func:`spectrum_family` of the parsed text (symbolic powers allowed)."""
     return spectrum_family(symbolic_expression(text), kind)
 
 

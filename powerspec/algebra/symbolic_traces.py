@@ -109,7 +109,7 @@ def _affine(t: list, c: Any, f: Any) -> list:
 
 
 def _cartesian_power(tc: list, k: Any, p: int) -> list:
-    """Traces of the k-th Cartesian power: (n + F(t))^k = sum_j C(k, j) n^(k-j) F^j, F = sum tc t^q/q!."""
+    """Traces of a k-th Cartesian power: (n + F)^k = sum_j C(k, j) n^(k-j) F^j, F = sum tc t^q/q!."""
     n = tc[0]
     f = [sympy.Integer(0)] + [tc[q] / sympy.factorial(q) for q in range(1, p + 1)]
     pw = [[sympy.Integer(1)] + [sympy.Integer(0)] * p]

@@ -70,7 +70,7 @@ class SymbolicCopies(Product):
             raise InputError("a product needs at least one operand")
         for _, k in self.operands:
             if is_symbol(k):
-                if not (k.is_integer and k.is_positive):
+                if k.is_integer is False or k.is_positive is False:  # plain symbols are read so
                     raise InputError(f"a symbolic power must be a positive integer symbol, got {k}")
             elif not isinstance(k, int) or isinstance(k, bool) or k < 1:
                 raise InputError(f"copies must be an integer >= 1 or a sympy Symbol, got {k!r}")

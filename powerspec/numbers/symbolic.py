@@ -37,14 +37,14 @@ from __future__ import annotations
 import contextlib
 import math
 import multiprocessing
-from collections.abc import Callable, Iterable, Iterator, Sequence
+from collections.abc import Callable, Iterable, Iterator
 from fractions import Fraction
 from typing import Any
 
 import numpy as np
 import sympy
 
-from powerspec.errors import InputError, SymbolicError
+from powerspec.errors import InputError, PowerspecError, SymbolicError
 
 TIME_GUARD = 30.0
 """Seconds a guarded sympy computation may run before its worker is terminated."""
@@ -288,9 +288,7 @@ def _child(conn, fn, args) -> None:  # pragma: no cover - runs in the forked wor
     _IN_WORKER[0] = True
     try:
         conn.send(("ok", fn(*args)))
-    except SymbolicError as exc:
-        conn.send(("err", SymbolicError, str(exc)))
-    except InputError as exc:  # user errors keep their type (exit status 2 either way)
+    except PowerspecError as exc:  # refusals and user errors keep their type
         conn.send(("err", type(exc), str(exc)))
     except Exception as exc:  # noqa: BLE001 - reported to the parent as a SymbolicError
         conn.send(("err", SymbolicError, f"sympy failed: {type(exc).__name__}: {exc}"))
