@@ -10,8 +10,14 @@ import pytest
 import sympy
 
 import powerspec.queries.planner as planner
-from powerspec.algebra import symbolic as S
+from powerspec.algebra.symbolic_family import spectrum_family, symbolic_family
+from powerspec.algebra.symbolic_forms import closed_forms, evaluate
+from powerspec.algebra.symbolic_traces import traces
+from powerspec.algebra.symbolic_tree import powers, symbolic_expression, symbolic_product
 from powerspec.errors import ExpressionError, InputError, NotExactError, SymbolicError
+from powerspec.factors.symbolic import MAX_SYMBOLIC_ORDER, SymbolicFactor, symbolic_factor
+from powerspec.interfaces.symbolic_printing import symbolic_report, symbolic_text
+from powerspec.numbers.symbolic import guarded
 from tests.reference import fold
 
 
@@ -43,7 +49,7 @@ def power_symbol(fam):
 def test_hypercube_family_closed_form():
     # source: Q_k has eigenvalues k - 2j with multiplicity C(k, j)
     # (Brouwer & Haemers, Spectra of Graphs, §1.4.6 -- from memory)
-    fam = S.symbolic_family("cart(K(2)^k)")
+    fam = symbolic_family("cart(K(2)^k)")
     k = power_symbol(fam)
     (j,) = fam.indices
     assert sympy.expand(fam.eigenvalue - (k - 2 * j)) == 0
@@ -54,7 +60,7 @@ def test_hypercube_family_closed_form():
 @pytest.mark.parametrize("kk", range(1, 13))
 def test_hypercube_expansion_matches_engine(kk):
     # source: the exact engine (powerspec.planner.spectrum) and the closed form k - 2j, C(k, j)
-    fam = S.symbolic_family("cart(K(2)^k)")
+    fam = symbolic_family("cart(K(2)^k)")
     got = fam.expand(k=kk)
     assert got == [(sympy.Integer(kk - 2 * j), math.comb(kk, j)) for j in range(kk + 1)]
     assert_same_multiset(got, engine_atoms(f"cart(K(2)^{kk})"))
@@ -65,7 +71,7 @@ def test_hypercube_expansion_matches_engine(kk):
 def test_hamming_family_closed_form_and_engine(q):
     # source: H(k, q) has eigenvalues (q-1)k - qj with multiplicity C(k, j)(q-1)^j
     # (Brouwer & Haemers, Spectra of Graphs, Hamming graphs -- from memory)
-    fam = S.symbolic_family(f"cart(K({q})^k)")
+    fam = symbolic_family(f"cart(K({q})^k)")
     k = power_symbol(fam)
     (j,) = fam.indices
     assert sympy.expand(fam.eigenvalue - ((q - 1) * k - q * j)) == 0
@@ -90,7 +96,7 @@ def test_hamming_family_closed_form_and_engine(q):
 ])
 def test_expansion_matches_engine(text, kk):
     # source: the exact engine on the same expression with the powers substituted
-    fam = S.symbolic_family(text)
+    fam = symbolic_family(text)
     if isinstance(kk, tuple):
         values = dict(zip([s.name for s in fam.symbols], kk, strict=True))
     else:
@@ -109,7 +115,7 @@ def test_expansion_matches_engine(text, kk):
 ])
 def test_other_matrix_kinds_match_engine(text, kind, kk):
     # source: the exact engine for the same matrix kind
-    fam = S.symbolic_family(text, kind)
+    fam = symbolic_family(text, kind)
     k = power_symbol(fam)
     assert_same_multiset(fam.expand(**{k.name: kk}), engine_atoms(text.replace("^k", f"^{kk}"), kind))
 
@@ -117,7 +123,7 @@ def test_other_matrix_kinds_match_engine(text, kind, kk):
 def test_cycle_eigenvalues_are_the_textbook_cosines():
     # source: C_n has eigenvalues 2 cos(2 pi j / n) (Brouwer & Haemers §1.4.3 -- from memory)
     for n in (5, 6, 8):
-        got = S.symbolic_factor(planner.resolve(f"C({n})")).eigenvalues()
+        got = symbolic_factor(planner.resolve(f"C({n})")).eigenvalues()
         want = [(2 * math.cos(2 * math.pi * j / n), 1) for j in range(n)]
         merged = {}
         for v, m in want:
@@ -142,7 +148,7 @@ def test_weighted_directed_cycle(t):
     # polynomial is x^T - prod w_i (only the full cycle contributes to det(xI - A)), so the
     # eigenvalues are (prod w)^(1/T) omega^j, omega = exp(2 pi i / T), each simple.
     ws = sympy.symbols(f"w1:{t + 1}", positive=True)
-    g = S.SymbolicFactor(weighted_dicycle(ws), "wcycle")
+    g = SymbolicFactor(weighted_dicycle(ws), "wcycle")
     vals = g.eigenvalues()
     assert [m for _, m in vals] == [1] * t
     prod = sympy.Mul(*ws)
@@ -169,17 +175,17 @@ def test_symbolic_loop_weight_power():
     # source: the exact engine with the loop weight substituted (c = 1/2), and
     # loops(c, K2) has eigenvalues c + 1, c - 1 (J - I shifted by c, from memory)
     c = sympy.Symbol("c")
-    g = S.SymbolicFactor(sympy.Matrix([[c, 1], [1, c]]), "loops(c, K(2))")
+    g = SymbolicFactor(sympy.Matrix([[c, 1], [1, c]]), "loops(c, K(2))")
     assert {v for v, _ in g.eigenvalues()} == {c + 1, c - 1}
     k = sympy.Symbol("k", integer=True, positive=True)
-    fam = S.spectrum_family(S.symbolic_product("cart", (g, k)))
+    fam = spectrum_family(symbolic_product("cart", (g, k)))
     got = [(v.subs(c, sympy.Rational(1, 2)), m) for v, m in fam.expand(k=3)]
     assert_same_multiset(got, engine_atoms("cart(loops(0.5, K(2))^3)"))
 
 
 def test_numeric_factor_converts_exactly():
     # source: the decimal typed in the expression, 0.1 = 1/10 (exact rational arithmetic)
-    g = S.symbolic_factor(planner.resolve("scale(0.1, K(2))"))
+    g = symbolic_factor(planner.resolve("scale(0.1, K(2))"))
     assert set(g.matrix) == {0, sympy.Rational(1, 10)}
     assert g.eigenvalues() == [(sympy.Rational(1, 10), 1), (sympy.Rational(-1, 10), 1)]
 
@@ -191,9 +197,9 @@ MOMENT_CASES = ["cart(C(4)^k)", "cart(P(3)^k)", "direct(P(3)^k)",
 
 @pytest.mark.parametrize("text", MOMENT_CASES)
 def test_moment_polynomials_match_engine(text):
-    node = S.symbolic_expression(text)
-    tr = S.traces(node, "adjacency", 4)
-    (k,) = S.powers(node)
+    node = symbolic_expression(text)
+    tr = traces(node, "adjacency", 4)
+    (k,) = powers(node)
     for kk in range(1, 21):
         atoms = engine_atoms(text.replace("^k", f"^{kk}"))
         for p in range(1, 5):
@@ -207,9 +213,9 @@ def test_moment_polynomials_match_engine(text):
 def test_cartesian_moments_are_n_power_k_times_polynomial():
     # source: the exponential formula sum_p tr(M^p) t^p/p! = (tr e^{tA})^k, so tr(M^p)/n^k is
     # a polynomial of degree <= p in k (Stanley, Enumerative Combinatorics 2, §5.1 -- from memory)
-    node = S.symbolic_expression("cart(P(3)^k)")
-    (k,) = S.powers(node)
-    for p, t in enumerate(S.traces(node, "adjacency", 4)):
+    node = symbolic_expression("cart(P(3)^k)")
+    (k,) = powers(node)
+    for p, t in enumerate(traces(node, "adjacency", 4)):
         poly = sympy.Poly(sympy.expand(sympy.powsimp(t / 3**k, force=True)), k)
         assert poly.degree() <= p
 
@@ -221,9 +227,9 @@ def test_cartesian_moments_are_n_power_k_times_polynomial():
     ("mix(2, 1, P(2)^3)", "adjacency", None),
 ])
 def test_moments_match_numpy_traces(text, kind, kk):
-    node = S.symbolic_expression(text)
-    tr = S.traces(node, kind, 4)
-    subs = {s: kk for s in S.powers(node)}
+    node = symbolic_expression(text)
+    tr = traces(node, kind, 4)
+    subs = {s: kk for s in powers(node)}
     p3 = np.array([[0, 1, 0], [1, 0, 1], [0, 1, 0]], float)
     c4 = np.roll(np.eye(4), 1, axis=1) + np.roll(np.eye(4), -1, axis=1)
     p2 = np.array([[0, 1], [1, 0]], float)
@@ -247,7 +253,7 @@ def test_moments_match_numpy_traces(text, kind, kk):
                                   "mix(0, 2, P(4)^k)", "cart(K(2)^k, K(1, 3)^n)",
                                   "direct(dicycle(3)^k)"])
 def test_spectral_radius_matches_engine(text):
-    forms, _ = S.closed_forms(S.symbolic_expression(text))
+    forms, _ = closed_forms(symbolic_expression(text))
     rho = forms["spectral_radius"]
     for kk in (1, 2, 3, 5):
         concrete = text.replace("^k", f"^{kk}").replace("^n", f"^{kk + 1}")
@@ -260,29 +266,29 @@ def test_spectral_radius_matches_engine(text):
 @pytest.mark.parametrize("text", ["cart(C(5)^k)", "cart(P(4)^k)", "strong(P(3)^k)",
                                   "mix(1, 0.5, K(1, 3)^k)", "cart(K(3)^k, P(3))"])
 def test_largest_and_smallest_match_engine(text):
-    forms, _ = S.closed_forms(S.symbolic_expression(text))
+    forms, _ = closed_forms(symbolic_expression(text))
     for kk in (1, 2, 4):
         concrete = text.replace("^k", f"^{kk}")
         top = planner.top(concrete, m=1).atoms.atoms()[0]
         # source: the exact engine's extremes (powerspec.planner.top), values and multiplicities
-        assert float(sympy.N(S.evaluate(forms["largest"], k=kk), 30)) == pytest.approx(top[0], rel=1e-12)
-        assert int(S.evaluate(forms["largest_multiplicity"], k=kk)) == top[1]
+        assert float(sympy.N(evaluate(forms["largest"], k=kk), 30)) == pytest.approx(top[0], rel=1e-12)
+        assert int(evaluate(forms["largest_multiplicity"], k=kk)) == top[1]
         if "smallest" in forms:
             bottom = planner.top(concrete, m=1, bottom=True).atoms.atoms()[0]
-            assert float(sympy.N(S.evaluate(forms["smallest"], k=kk), 30)) == pytest.approx(
+            assert float(sympy.N(evaluate(forms["smallest"], k=kk), 30)) == pytest.approx(
                 bottom[0], rel=1e-12)
-            assert int(S.evaluate(forms["smallest_multiplicity"], k=kk)) == bottom[1]
+            assert int(evaluate(forms["smallest_multiplicity"], k=kk)) == bottom[1]
 
 
 def test_mean_variance_estrada_heat_trace():
-    node = S.symbolic_expression("cart(P(3)^k)")
-    forms, _ = S.closed_forms(node)
-    k = next(iter(S.powers(node)))
+    node = symbolic_expression("cart(P(3)^k)")
+    forms, _ = closed_forms(node)
+    k = next(iter(powers(node)))
     # source: the CLT scaling in DESIGN §2 -- the Cartesian power's eigenvalue distribution is the
     # k-fold convolution, so the variance is k times P(3)'s (eigenvalues 0, +-sqrt 2: 4/3)
     assert sympy.simplify(forms["variance"] - sympy.Rational(4, 3) * k) == 0
     assert forms["mean"] == 0
-    lap, _ = S.closed_forms(node, "laplacian")
+    lap, _ = closed_forms(node, "laplacian")
     t = next(s for s in lap["heat_trace"].free_symbols if s.name == "t")
     for kk in (1, 3, 6):
         atoms = engine_atoms(f"cart(P(3)^{kk})")
@@ -301,31 +307,31 @@ def kirchhoff(adj):
 
 @pytest.mark.parametrize("kk", [1, 2, 3, 4])
 def test_hypercube_spanning_trees(kk):
-    forms, _ = S.closed_forms(S.symbolic_expression("cart(K(2)^k)"))
+    forms, _ = closed_forms(symbolic_expression("cart(K(2)^k)"))
     tau = forms["spanning_trees"]
     (k,) = [s for s in tau.free_symbols if s.name == "k"]
     j = sympy.Symbol("j", integer=True, nonnegative=True)
     # source: the form asked for, Product over j of (2j)^C(k,j) / 2^k
     assert sympy.simplify(tau - sympy.Product((2 * j) ** sympy.binomial(k, j), (j, 1, k)) / 2**k) == 0
-    got = int(S.evaluate(tau, k=kk))
+    got = int(evaluate(tau, k=kk))
     # source: Q_k has 2^(2^k - k - 1) prod_j j^C(k,j) spanning trees (from memory)
     assert got == 2 ** (2**kk - kk - 1) * math.prod(jj ** math.comb(kk, jj) for jj in range(1, kk + 1))
     # source: matrix-tree theorem via numpy.linalg.det on the explicit hypercube
     q = fold([np.array([[0.0, 1.0], [1.0, 0.0]])] * kk, 1.0, 0.0)
     assert got == round(kirchhoff(q))
     log_tau = forms["log_spanning_trees"]
-    assert float(S.evaluate(log_tau, k=kk)) == pytest.approx(math.log(got), rel=1e-12)
+    assert float(evaluate(log_tau, k=kk)) == pytest.approx(math.log(got), rel=1e-12)
 
 
 def test_torus_spanning_trees_three_indices():
     # source: matrix-tree theorem via numpy.linalg.det on C4 x C4 and C4^3 built with kron
-    forms, _ = S.closed_forms(S.symbolic_expression("cart(C(4)^k)"))
+    forms, _ = closed_forms(symbolic_expression("cart(C(4)^k)"))
     tau = forms["spanning_trees"]
     (k,) = [s for s in tau.free_symbols if s.name == "k"]
     c4 = np.roll(np.eye(4), 1, axis=1) + np.roll(np.eye(4), -1, axis=1)
     for kk in (1, 2, 3):
         want = kirchhoff(fold([c4] * kk, 1.0, 0.0))
-        assert int(S.evaluate(tau, k=kk)) == pytest.approx(want, rel=1e-9)
+        assert int(evaluate(tau, k=kk)) == pytest.approx(want, rel=1e-9)
 
 
 # ----------------------------------------------------------------- refusals
@@ -347,13 +353,13 @@ def test_irreducible_quintic_is_refused():
     m = companion([-1, -1, 0, 0, 0])
     lam = sympy.Symbol("lam")
     assert sympy.expand(m.charpoly(lam).as_expr() - (lam**5 - lam - 1)) == 0
-    g = S.SymbolicFactor(m, "quintic")
+    g = SymbolicFactor(m, "quintic")
     with pytest.raises(SymbolicError, match="degree 5"):
         g.eigenvalues()
     with pytest.raises(SymbolicError, match="degree 5"):
         g.eigenvalues(timeout=None)  # the degree guard alone, inline
     with pytest.raises(SymbolicError):
-        S.spectrum_family(S.symbolic_product("cart", (g, sympy.Symbol("k"))))
+        spectrum_family(symbolic_product("cart", (g, sympy.Symbol("k"))))
 
 
 def _sleeper(seconds, name):
@@ -364,14 +370,14 @@ def _sleeper(seconds, name):
 def test_time_guard_terminates_the_worker():
     # a worker that would take 60 s is terminated after 0.3 s with a SymbolicError
     with pytest.raises(SymbolicError, match="within 0.3 s"):
-        S.guarded(_sleeper, (60, "slow"), 0.3)
+        guarded(_sleeper, (60, "slow"), 0.3)
 
 
 def test_size_guard():
     w = sympy.Symbol("w")
-    big = sympy.eye(S.MAX_SYMBOLIC_ORDER + 1) * w
+    big = sympy.eye(MAX_SYMBOLIC_ORDER + 1) * w
     with pytest.raises(SymbolicError, match="vertices"):
-        S.SymbolicFactor(big, "big").eigenvalues()
+        SymbolicFactor(big, "big").eigenvalues()
 
 
 @pytest.mark.parametrize("text,exc", [
@@ -384,18 +390,18 @@ def test_size_guard():
 ])
 def test_bad_expressions(text, exc):
     with pytest.raises(exc):
-        S.symbolic_family(text)
+        symbolic_family(text)
 
 
 def test_not_exact_kind_is_refused():
     with pytest.raises(NotExactError, match="not exact"):
-        S.symbolic_family("direct(P(3)^k)", "laplacian")
+        symbolic_family("direct(P(3)^k)", "laplacian")
     with pytest.raises(InputError):
-        S.symbolic_report("cdf", "cart(K(2)^k)")
+        symbolic_report("cdf", "cart(K(2)^k)")
 
 
 def test_expand_needs_the_power():
-    fam = S.symbolic_family("cart(K(2)^k)")
+    fam = symbolic_family("cart(K(2)^k)")
     with pytest.raises(InputError, match="needs a value"):
         fam.expand()
     with pytest.raises(InputError):
@@ -406,11 +412,11 @@ def test_expand_needs_the_power():
 @pytest.mark.parametrize("command", ["spectrum", "top", "moments", "invariants"])
 @pytest.mark.parametrize("text", ["cart(K(2)^k)", "cart(C(5)^k)", "strong(K(3)^k)"])
 def test_report_strings_round_trip(command, text):
-    report = S.symbolic_report(command, text, latex=True)
+    report = symbolic_report(command, text, latex=True)
     assert {"expression", "matrix", "order", "method", "symbolic"} <= set(report)
-    node = S.symbolic_expression(text)
-    fam = S.spectrum_family(node)
-    forms, _ = S.closed_forms(node) if command != "spectrum" else ({}, [])
+    node = symbolic_expression(text)
+    fam = spectrum_family(node)
+    forms, _ = closed_forms(node) if command != "spectrum" else ({}, [])
     originals = {"eigenvalue": fam.eigenvalue, "multiplicity": fam.multiplicity,
                  "constraint": fam.constraints, "count": fam.count, **forms}
     values = {"k": 3, "j": 1, "j1": 1, "j2": 1, "t": sympy.Rational(1, 3)}
@@ -419,22 +425,31 @@ def test_report_strings_round_trip(command, text):
     for name, text_form in report["symbolic"].items():
         back = sympy.sympify(text_form)
         orig = originals[name]
-        a = S.evaluate(back, **values)
-        b = S.evaluate(orig, **values)
+        a = evaluate(back, **values)
+        b = evaluate(orig, **values)
         if isinstance(a, sympy.logic.boolalg.Boolean):
             assert bool(a) == bool(b)
         else:
             # source: sympy evaluating the original expression at the same point
             assert complex(sympy.N(a, 30)) == pytest.approx(complex(sympy.N(b, 30)))
-    text_out = S.symbolic_text(report)
+    if command == "moments":
+        # DESIGN §4: moments stay a list of [p, value], also under --symbolic
+        assert [p for p, _ in report["moments"]] == [1, 2, 3, 4]
+        assert not any(name.startswith("moment_") for name in report["symbolic"])
+        for p, text_form in report["moments"]:
+            # source: sympy evaluating the original expression at the same point
+            want = evaluate(forms[f"moment_{p}"], **values)
+            assert complex(sympy.N(evaluate(sympy.sympify(text_form), **values), 30)) == pytest.approx(
+                complex(sympy.N(want, 30)))
+    text_out = symbolic_text(report)
     assert report["expression"] in text_out and "=" in text_out
-    assert "\\" in S.symbolic_text(report, latex=True) or command in ("spectrum", "top")
+    assert "\\" in symbolic_text(report, latex=True) or command in ("spectrum", "top")
 
 
 def test_report_hypercube_keys():
-    r = S.symbolic_report("spectrum", "cart(K(2)^k)")
+    r = symbolic_report("spectrum", "cart(K(2)^k)")
     assert r["order"] == "2**k"
     assert r["symbolic"]["eigenvalue"] == "k - 2*j"
     assert r["symbolic"]["multiplicity"] == "binomial(k, j)"
-    inv = S.symbolic_report("invariants", "cart(K(2)^k)")["symbolic"]
+    inv = symbolic_report("invariants", "cart(K(2)^k)")["symbolic"]
     assert sympy.sympify(inv["spectral_radius"]) == sympy.Symbol("k")

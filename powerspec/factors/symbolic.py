@@ -270,7 +270,7 @@ def _eigen_job(m: sympy.ImmutableMatrix, name: str) -> list[tuple[sympy.Expr, in
             raise SymbolicError(
                 f"the characteristic polynomial of {name} has an irreducible factor of degree {d} "
                 f"({text}) that sympy cannot solve in radicals; use the numeric engine "
-                "(drop --symbolic)")
+                "(drop --symbolic); moments --symbolic needs no eigenvalues")
         rts = sympy.roots(f, multiple=False)
         if sum(rts.values()) != d or any(r.has(sympy.CRootOf) for r in rts):
             raise SymbolicError(
