@@ -26,8 +26,10 @@ from powerspec.errors import SizeLimitError, SymbolicError
 from powerspec.factors import families
 from powerspec.factors.factor import Factor
 from powerspec.factors.symbolic import symbolic_factor
+from powerspec.factors.symbolic_families import unit_spectrum
 from powerspec.interfaces.cli import main
 from powerspec.interfaces.symbolic_printing import symbolic_report
+from powerspec.numbers import hp
 from tests.reference import fold
 
 K_SYM = sympy.Symbol("k", integer=True, positive=True)
@@ -218,3 +220,18 @@ def test_numeric_commands_never_import_sympy():
               "sys.exit(3 if 'sympy' in sys.modules else 0)\n")
     proc = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, timeout=120)
     assert proc.returncode == 0, proc.stderr
+
+
+@pytest.mark.parametrize("family,args,kinds", [
+    ("P", (7,), ("adjacency", "laplacian", "signless", "transition", "normalized")),
+    ("C", (9,), ("adjacency",)), ("K", (5,), ("adjacency",)),
+    ("K", (2, 3), ("adjacency", "laplacian", "signless", "transition", "normalized")),
+])
+def test_context_closed_forms_agree_with_the_families(family, args, kinds):
+    # The closed forms written against a context give, in the certified context, exactly the
+    # families' own values (themselves checked against numpy in test_factors.py).
+    factor = families.K(*args) if family == "K" else getattr(families, family)(*args)
+    for kind in kinds:
+        mine = unit_spectrum(family, args, kind, hp)
+        theirs = [(v, m) for v, m in factor.closed_form(kind, factor.adjacency) if m]
+        assert sorted(map(str, mine)) == sorted(map(str, theirs))

@@ -8,9 +8,10 @@ A :class:`SymbolicFactor` is the factor of a leaf of the one expression tree
 
 Eigenvalues, exact, in this order of preference:
 
-1. the family's closed form (:func:`~powerspec.factors.symbolic_families.family_form`):
+1. the family's closed form (:func:`family_form`, the formulas of
+   :mod:`~powerspec.factors.symbolic_families` in the sympy context):
    C(n), P(n), K(n), K(m, n), J(n), dicycle and their scaled / looped versions, at
-   any order up to :data:`~powerspec.factors.symbolic_families.MAX_CLOSED_FORM_ORDER`;
+   any order up to :data:`MAX_CLOSED_FORM_ORDER`;
 2. ``Matrix.charpoly`` -> ``factor_list`` -> ``roots`` in a forked worker
    terminated after :data:`~powerspec.numbers.symbolic.TIME_GUARD` seconds, after
    the guards: at most :data:`MAX_SYMBOLIC_ORDER` vertices with symbols or
@@ -33,13 +34,18 @@ rationals by their shortest decimal (0.1 -> 1/10).
 
 from __future__ import annotations
 
+import inspect
+import re
+from collections.abc import Callable
 from typing import Any
 
+import numpy as np
 import sympy
 
 from powerspec.errors import InputError, SymbolicError
+from powerspec.factors import families
 from powerspec.factors.factor import MATRIX_KINDS, Factor, from_matrix
-from powerspec.factors.symbolic_families import MAX_CLOSED_FORM_ORDER, family_form
+from powerspec.factors.symbolic_families import dicycle_spectrum, unit_spectrum
 from powerspec.numbers.symbolic import SYMPY, TIME_GUARD, guarded, number
 
 MAX_SYMBOLIC_ORDER = 12
@@ -53,6 +59,108 @@ MAX_RADICAL_DEGREE = 4
 (except binomials and cyclotomic polynomials)."""
 
 _DESCENDING = ("adjacency", "transition")
+
+MAX_CLOSED_FORM_ORDER = 200
+"""Largest family member (vertices) whose closed form the symbolic domain writes out."""
+
+_NAME = re.compile(r"^(?:(?:scale|loops)\([^,()]+, )*(P|C|K|J|dicycle)\((\d+)(?:, (\d+))?[,)]")
+_ALL_KINDS = ("adjacency", "laplacian", "signless", "transition", "normalized")
+_KINDS = {"P": _ALL_KINDS, "C": ("adjacency",), "K": ("adjacency",), "Kmn": _ALL_KINDS,
+          "J": ("adjacency",), "dicycle": ("adjacency",)}
+
+
+# ------------------------------------------------------------ family closed forms
+
+
+def _structure(factor: Factor) -> tuple[str, tuple[int, ...]] | None:
+    """(family, args) of a family member named as the families name it, else None."""
+    m = _NAME.match(factor.name)
+    if m is None:
+        return None
+    args = tuple(int(x) for x in m.groups()[1:] if x is not None)
+    fam = m.group(1)
+    if fam == "K" and len(args) == 2:
+        fam = "Kmn"
+    order = args[0] + args[1] if fam == "Kmn" else args[0]
+    if order != factor.n or order > MAX_CLOSED_FORM_ORDER:
+        return None
+    return fam, args
+
+
+def _reference(fam: str, args: tuple[int, ...]) -> Factor:
+    build = {"P": families.P, "C": families.C, "K": families.K, "Kmn": families.K, "J": families.J,
+             "dicycle": families.dicycle}[fam]
+    return build(*args)
+
+
+def _off_pattern(adj) -> set[tuple[int, int]]:
+    coo = adj.tocoo()
+    return {(int(i), int(j)) for i, j in zip(coo.row, coo.col, strict=True) if i != j}
+
+
+def family_form(factor: Factor, ctx: Any = SYMPY) -> Callable[[str], list | None] | None:
+    """The closed form ``kind -> [(value, multiplicity)] or None`` of a family member, or None.
+
+    A factor whose own closed form takes a context (``closed_form(kind, adjacency,
+    ctx=...)``) is asked directly.  Otherwise the family is recognised from the
+    canonical name the families give (``scale(0.5, C(11))``), *verified* against
+    the family's adjacency pattern, and the weights are read off the matrix:
+    off-diagonal weights all w and loops all l give the eigenvalues of w G + l I
+    (dicycle: l + the n-th roots of the product of its arc weights).  None when the
+    factor is not such a member of at most :data:`MAX_CLOSED_FORM_ORDER` vertices.
+
+    >>> from powerspec.factors.families import C, scale
+    >>> family_form(scale(3, C(4)))("adjacency")
+    [(6, 1), (0, 2), (-6, 1)]
+    """
+    own = factor.closed_form
+    if own is not None and "ctx" in inspect.signature(own).parameters:
+        return lambda kind: own(kind, factor.adjacency, ctx=ctx)
+    st = _structure(factor)
+    if st is None:
+        return None
+    fam, args = st
+    adj = factor.adjacency
+    diag = np.unique(adj.diagonal())
+    if diag.size > 1:
+        return None
+    loop = float(diag[0])
+    coo = adj.tocoo()
+    off = coo.row != coo.col
+    if fam == "dicycle":
+        n = args[0]
+        if np.any((coo.col[off] - coo.row[off]) % n != 1):
+            return None
+        dense = adj.toarray() if n <= MAX_CLOSED_FORM_ORDER else None
+        weights = [float(dense[i, (i + 1) % n]) for i in range(n)]
+        return lambda kind: dicycle_spectrum(weights, loop, ctx) if kind == "adjacency" else None
+    if _off_pattern(adj) != _off_pattern(_reference(fam, args).adjacency):
+        return None
+    w_vals = np.unique(coo.data[off])
+    if w_vals.size != 1:
+        return None
+    w, l_ = ctx.rational(float(w_vals[0])), ctx.rational(loop)
+    base = "K" if fam == "Kmn" else fam
+    if fam == "J":  # J(n) is K(n) with unit loops: its pattern off the diagonal is K(n)'s
+        base = "K"
+
+    def form(kind: str) -> list | None:
+        if kind not in _KINDS[fam]:
+            return None
+        unit = unit_spectrum(base, args, kind, ctx)
+        if unit is None:
+            return None
+        if kind == "adjacency":
+            return [(w * v + l_, m) for v, m in unit]
+        if kind == "laplacian":
+            return [(w * v, m) for v, m in unit]
+        if kind == "signless":
+            return [(w * v + 2 * l_, m) for v, m in unit]
+        if l_ != 0 or (kind == "normalized" and w < 0):
+            return None
+        return unit  # transition and normalized do not see a common weight
+
+    return form
 
 
 def check_kind(kind: str) -> None:
@@ -106,7 +214,7 @@ class SymbolicFactor:
         [   0, 1/10],
         [1/10,    0]])
         """
-        form = family_form(factor, SYMPY)
+        form = family_form(factor)
         if form is None and factor.n > MAX_EXACT_ORDER:
             raise SymbolicError(
                 f"{factor.name} has {factor.n} vertices and no closed form; symbolic eigenvalues "
@@ -300,5 +408,5 @@ def symbolic_factor(obj: Any, name: str | None = None) -> SymbolicFactor:
     return SymbolicFactor.from_factor(from_matrix(obj), name)
 
 
-__all__ = ["MAX_EXACT_ORDER", "MAX_RADICAL_DEGREE", "MAX_SYMBOLIC_ORDER", "SymbolicFactor",
-           "check_kind", "descending", "symbolic_factor"]
+__all__ = ["MAX_CLOSED_FORM_ORDER", "MAX_EXACT_ORDER", "MAX_RADICAL_DEGREE", "MAX_SYMBOLIC_ORDER",
+           "SymbolicFactor", "check_kind", "descending", "family_form", "symbolic_factor"]
