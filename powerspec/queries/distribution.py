@@ -124,6 +124,14 @@ def _engine_bound(eng: Engine, node: Node, kind: str) -> int:
     return eng.bound(node, kind)
 
 
+def _engine_top_degree(eng: Engine, node: Node) -> float | None:
+    """The largest vertex degree (rounded up), or None when some weight is negative or too many."""
+    if any((f.adjacency.data < 0).any() for f in node.leaves()) or not eng.fits_degrees(node):
+        return None
+    at = _atoms(eng.degrees(node))
+    return float(np.max(at.values + at.radius))
+
+
 def _engine_linear_form(eng: Engine, node: Node, kind: str):
     """(combination, operand kind, (shift, factor) as floats) of the engine's linear form."""
     comb, use, post = eng.linear_form(node, kind)
@@ -210,8 +218,8 @@ def _flatten(eng: Engine, node: Node, kind: str):
         # a single factor: one copy under the additive rule (its spectrum is exact anyway)
         return CARTESIAN, [(_engine_spectrum(eng, node, kind), 1)], 0.0, 1.0
     comb, use, post = _engine_linear_form(eng, node, kind)
-    if comb.mode is None:
-        return None
+    if comb.mode not in ("add", "mul"):
+        return None  # a left fold (a outside {0, 1}) or the zero rule (a = b = 0)
     parts = []  # operand spectra mapped to s-space
     to_shift, to_factor = (float(v) for v in comb.to_s())
 
@@ -265,9 +273,9 @@ class _Query:
             self.flat = _flatten(self.eng, self.node, self.matrix)
             if self.flat is None:
                 raise NotExactError(
-                    f"{self.label}: the bracket and law tiers need an associative product (cart, "
-                    "direct, strong, or mix with a in {0, 1}); mix with a outside {0, 1} is a left "
-                    "fold that the law tier does not cover -- use the exact tier (smaller power)")
+                    f"{self.label}: the bracket and law tiers need cart, direct, strong or mix(a, b) "
+                    "with a in {0, 1} and b != 0 (other mix rules are left folds or the zero "
+                    "matrix); use the exact tier (a smaller power, or a larger --limit)")
             self.mode = self.flat[0].mode
             self.alpha, self.beta = self.flat[2], self.flat[3]
         return self.flat
@@ -346,6 +354,7 @@ class _Query:
         meet = {k: v for k, v in cands.items() if v[1] <= tol}
         self.meeting = {k: v[0] for k, v in meet.items()}
         rank = {"exact": 0, "bracket": 1, "law": 2}
+        widths = {"law": w_law}  # of the tiers tried
         while meet:
             cheapest = min(v[0] for v in meet.values())
             name = min((k for k, v in meet.items() if v[0] <= COST_RATIO * cheapest),
@@ -354,20 +363,23 @@ class _Query:
                 return law
             try:
                 tier = self.exact() if name == "exact" else self.bracket(tol)
-                if width_of(tier) <= tol:
+                w = width_of(tier)
+                if w <= tol:
                     return tier
+                widths[name] = w
             except SizeLimitError:
-                pass
+                widths[name] = math.inf
             del meet[name]  # it does not meet the width after all: choose again among the rest
             self.meeting.pop(name)
         if self.tol is None:
             if law is not None:
                 return law
             return self.exact()
+        tried = ", ".join(f"{k} {v:.3g}" for k, v in widths.items() if math.isfinite(v))
         raise SizeLimitError(
-            f"no tier meets tol={self.tol:g} for {self.label}: the law tier's bound is "
-            f"{w_law:.3g} wide and the bracket grid is over the limit or too coarse; ask for a "
-            "wider tol")
+            f"no tier meets tol={self.tol:g} for {self.label} (certified widths: {tried}; an "
+            "eigenvalue known only to its error radius at the query point also widens the exact "
+            "tier); ask for a wider tol or another point")
 
     # -- evaluation in x
     def _s(self, t):

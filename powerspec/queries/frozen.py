@@ -34,7 +34,13 @@ import numpy as np
 from powerspec.algebra.moments import MomentEngine, trace_moments
 from powerspec.errors import InputError, NotExactError, SizeLimitError
 from powerspec.queries.common import matrix_label
-from powerspec.queries.distribution import _Query, _width, decimal_level, float_up
+from powerspec.queries.distribution import (
+    _engine_top_degree,
+    _Query,
+    _width,
+    decimal_level,
+    float_up,
+)
 from powerspec.queries.distsolve import quantiles
 from powerspec.queries.disttiers import AddBracketTier, AddLaw, ExactTier, MulLaw
 from powerspec.tiers.momentbounds import DEFAULT_ORDER, cdf_bounds
@@ -371,17 +377,22 @@ class MomentDistribution(SpectralDistribution):
         return (lo + hi) / 2, lo, hi
 
     def _ppf3(self, levels):
-        # the spectrum lies within +-(sqrt(tau_2) * sqrt(order)) (Cauchy-Schwarz on the traces);
-        # bisection on the bounds (at least 60 halvings)
-        tau2 = float(self._tau[2])
-        n = float(self.order) if isinstance(self.order, int) else 1e300
-        r = math.sqrt(max(tau2, 0.0) * n) + 1.0
+        # with non-negative weights the Laplacian / signless spectrum lies in [0, 2 d_max]
+        # (Gershgorin); otherwise within +-sqrt(tau_2 * order) (Cauchy-Schwarz on the traces).
+        # Bisection on the bounds, 60 halvings.
+        top = _engine_top_degree(self._q.eng, self._q.node)
+        if top is not None:
+            x0, x1 = 0.0, 2.0 * top * (1 + 1e-12) + 1e-300
+        else:
+            n = float(self.order) if isinstance(self.order, int) else 1e300
+            x1 = math.sqrt(max(float(self._tau[2]), 0.0) * n) + 1.0
+            x0 = -x1
         out = ([], [], [])
         for f in levels:
             t = float_up(f)
             res = []
             for side in (1, 0):
-                a, b = -r, r
+                a, b = x0, x1
                 for _ in range(60):
                     m = (a + b) / 2
                     if cdf_bounds(self._tau, m, lattice=self._lattice)[side] >= t:
