@@ -235,3 +235,13 @@ def test_context_closed_forms_agree_with_the_families(family, args, kinds):
         mine = unit_spectrum(family, args, kind, hp)
         theirs = [(v, m) for v, m in factor.closed_form(kind, factor.adjacency) if m]
         assert sorted(map(str, mine)) == sorted(map(str, theirs))
+
+
+def test_top_of_a_large_cycle_power_needs_no_matrix():
+    # C(60) is past the exact-matrix size, but its closed form gives the extremes.
+    report = symbolic_report("top", "cart(C(60)^k)")
+    k = sympy.Symbol("k")
+    # source: C_n's largest and smallest eigenvalues 2 and 2 cos(2 pi 30/60) = -2 (from memory),
+    # summed over k copies (DESIGN §2, Cartesian rule)
+    assert sympy.sympify(report["symbolic"]["spectral_radius"]) == 2 * k
+    assert sympy.sympify(report["symbolic"]["smallest"]) == -2 * k

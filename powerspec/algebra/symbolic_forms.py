@@ -193,7 +193,10 @@ def closed_forms(node: Node, kind: str = "adjacency", max_power: int = 4
     _extremes(fam, node, kind, forms, notes)
     if kind == "adjacency" and "spectral_radius" in forms:
         forms["epidemic_threshold"] = 1 / forms["spectral_radius"]
-    forms.update(moment_forms(node, kind, max_power))
+    try:
+        forms.update(moment_forms(node, kind, max_power))
+    except (SymbolicError, NotExactError) as exc:
+        notes.append(f"moments: {exc}")
     if fam.mode == "add" and fam.post == (0, 1):
         def heat(blk, scale):
             return sympy.Add(*[m * sympy.exp(scale * v)
