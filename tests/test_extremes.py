@@ -76,9 +76,12 @@ def test_strong_top_any_k():
     assert math.isclose(float(v), 3.0**50 - 1, rel_tol=1e-12) and m == 1
 
 
-def test_multiplicity_guard():
-    with pytest.raises(ps.SizeLimitError, match="digits"):
-        ps.top("strong(K(3)^1000000000)", 2)
+def test_huge_multiplicity_in_factored_form():
+    # source: the strong power of K_3 is the complete graph on N = 3^k vertices (textbook:
+    # K_m strong K_n = K_mn, from memory), eigenvalues N - 1 once and -1 with multiplicity N - 1
+    atoms = ps.top("strong(K(3)^1000000000)", 2).atoms
+    assert str(atoms.mult[0]) == "3^1000000000 - 1" and atoms.atoms()[0][0] == -1.0
+    assert atoms.mult[1] == 1
 
 
 def test_mixed_expression_top():

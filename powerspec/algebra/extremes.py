@@ -433,7 +433,8 @@ def _class_values(state: tuple, ops, offsets, real: bool):
                     diff = diff * (0 if d == 0 else (-1) ** c * _count_pow(-d, c) if d < 0
                                    else _count_pow(d, c))
                 else:
-                    pw = power(cl.phases, c, DIRECT, 4 * MAX_STATES, MAX_STATES)
+                    ph = cl.phases if cl.phases is not None else _sign_phases(cl)
+                    pw = power(ph, c, DIRECT, 4 * MAX_STATES, MAX_STATES)
                     phase = pw if phase is None else _mul_spectra(phase, pw)
         if real:
             out = []
@@ -446,6 +447,12 @@ def _class_values(state: tuple, ops, offsets, real: bool):
             return out
         return [(mag * z, mm * weight) for z, mm in zip(phase.balls(), phase.mult.tolist(),
                                                          strict=True)]
+
+
+def _sign_phases(cl: _Class) -> Spectrum:
+    """The phases (+1 / -1 with their counts) of a real class inside a complex product."""
+    pairs = [(v, m) for v, m in ((1.0, cl.pos), (-1.0, cl.neg)) if m]
+    return Spectrum.from_values([v for v, _ in pairs], [m for _, m in pairs])
 
 
 def _mul_spectra(a: Spectrum, b: Spectrum) -> Spectrum:
