@@ -31,7 +31,14 @@ Vec = Rationals | Balls
 
 
 def const(like: Vec, q: Fraction) -> Vec:
-    """The exact rational q as a one-element vector in the domain of ``like``."""
+    """The exact rational q as a one-element vector in the domain of ``like``.
+
+    A domain may supply its own constructor (``like.const(q)``); the exact and
+    ball domains are built here.
+    """
+    own = getattr(like, "const", None)
+    if callable(own):
+        return own(Fraction(q))
     r = Rationals.from_fractions([Fraction(q)])
     return r if isinstance(like, Rationals) else rationals_to_balls(r)
 
@@ -117,8 +124,7 @@ def _where(mask: np.ndarray, a: Vec, b: Vec) -> Vec:
     a, b = unify(a, b)
     n = mask.shape[0]
     idx = np.where(mask, np.arange(n), n + np.arange(n))
-    both = Rationals.concat([a, b]) if isinstance(a, Rationals) else Balls.concat([a, b])
-    return both.take(idx)
+    return type(a).concat([a, b]).take(idx)
 
 
 def pairs(x: Vec, y: Vec) -> tuple[Vec, Vec]:

@@ -58,6 +58,8 @@ class Product:
         if not self.operands:
             raise InputError("a product needs at least one operand")
         for _, k in self.operands:
+            if getattr(k, "is_Symbol", False):
+                continue  # a symbolic power k (the symbolic domain's closed forms in k)
             if not isinstance(k, int) or isinstance(k, bool) or k < 1:
                 raise InputError(f"copies must be an integer >= 1, got {k!r}")
 
