@@ -48,6 +48,15 @@ _EXPORTS = {
     "motif": "powerspec.factors",
     "scale": "powerspec.factors",
     "Spectrum": "powerspec.spectra.spectrum",
+    "factor": "powerspec.algebra.build",
+    "cart": "powerspec.algebra.build",
+    "direct": "powerspec.algebra.build",
+    "strong": "powerspec.algebra.build",
+    "mix": "powerspec.algebra.build",
+    "moments": "powerspec.queries.moments:moment_answer",
+    "invariants": "powerspec.queries.invariants",
+    "distribution": "powerspec.queries.frozen",
+    "plot": "powerspec.interfaces.plots",
     "spectrum": "powerspec.queries.planner",
     "top": "powerspec.queries.planner",
     "cdf": "powerspec.queries.planner",
@@ -65,7 +74,8 @@ def __getattr__(name: str):
             return importlib.import_module(f"powerspec.{name}")
         except ImportError:
             raise AttributeError(f"module 'powerspec' has no attribute {name!r}") from None
-    value = getattr(importlib.import_module(mod), name)
+    mod, _, attr = mod.partition(":")
+    value = getattr(importlib.import_module(mod), attr or name)
     globals()[name] = value
     return value
 

@@ -28,6 +28,7 @@ from fractions import Fraction
 from typing import Any
 
 import mpmath
+import numpy as np
 from flint import acb, arb, fmpq
 
 from powerspec.errors import InputError
@@ -72,6 +73,33 @@ class Answer:
         sp = self.atoms
         pairs = list(zip(sp.balls(), [_plain(m) for m in sp.mult.tolist()], strict=True))
         return pairs[::-1] if self.descending else pairs
+
+    # ------------------------------------------------------ conversions
+    def values(self) -> np.ndarray:
+        """The atoms' midpoints in listing order (float64 / complex128; +-inf beyond range)."""
+        m = self.atoms.midpoints()
+        return m[::-1] if self.descending else m
+
+    def multiplicities(self) -> np.ndarray:
+        """The atoms' exact multiplicities in listing order (object array of ints / BigCount)."""
+        out = np.empty(len(self.atoms), dtype=object)
+        out[:] = [_plain(m) for m in self.atoms.mult.tolist()]
+        return out[::-1] if self.descending else out
+
+    def radii(self) -> np.ndarray:
+        """Certified radii of the atoms around their midpoints, in listing order."""
+        r = self.atoms.radii()
+        return r[::-1] if self.descending else r
+
+    def as_dict(self) -> dict:
+        """The answer as plain Python data: the JSON layout read back with the json module."""
+        return json.loads(self.to_json())
+
+    def __getitem__(self, key: str):
+        """``answer["spectral_radius"]`` (an invariant) or any key of :meth:`as_dict`."""
+        if self.invariants is not None and key in self.invariants:
+            return self.invariants[key]
+        return self.as_dict()[key]
 
     # ------------------------------------------------------------- JSON
     def to_dict(self) -> dict:

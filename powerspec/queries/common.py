@@ -4,9 +4,9 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from powerspec.algebra.engine import Leaf, Node
+from powerspec.algebra.build import as_node
 from powerspec.algebra.grammar import parse
-from powerspec.factors import Factor, from_matrix
+from powerspec.algebra.tree import Node
 
 
 def resolve(expr, base_dir: str | Path | None = None) -> Node:
@@ -15,16 +15,13 @@ def resolve(expr, base_dir: str | Path | None = None) -> Node:
     >>> resolve("cart(C(4)^2)").order
     16
     """
-    if isinstance(expr, str):
+    if isinstance(expr, str) and base_dir is not None:
         return parse(expr, base_dir)
-    if isinstance(expr, Node.__args__):
-        return expr
-    if isinstance(expr, Factor):
-        return Leaf(expr)
-    return Leaf(from_matrix(expr))
+    return as_node(expr)
 
 
 def matrix_label(matrix: str, node: Node, degrees: str) -> str:
+    """The matrix kind as shown in answers (with the degree direction for directed products)."""
     if matrix in ("laplacian", "signless", "transition") and node.directed:
         return f"{matrix} ({degrees}-degree)"
     return matrix
