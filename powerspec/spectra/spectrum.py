@@ -287,8 +287,15 @@ class Spectrum:
             f = self.midpoints()[i]
             if np.isfinite(f) and (f != 0 or self._is_zero(i)):
                 return complex(f) if self.midpoints().dtype.kind == "c" else float(f)
-        mid, _ = to_mpmath(self.ball(i))
-        return mid
+        with mpmath.workprec(200):
+            mid, _ = to_mpmath(self.ball(i))
+        if isinstance(mid, mpmath.mpc):
+            z = complex(mid)
+            ok = all(abs(t) < 1e300 and (t != 0 or p == 0) for t, p in
+                     ((z.real, mid.real), (z.imag, mid.imag)))
+            return (z if z.imag else z.real) if ok else mid
+        f = float(mid)
+        return f if abs(f) < 1e300 and (f != 0 or mid == 0) and abs(f) > 1e-300 or mid == 0 else mid
 
     def _is_zero(self, i: int) -> bool:
         v = self.values
