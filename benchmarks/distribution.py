@@ -22,6 +22,7 @@ printed next to each row.
 from __future__ import annotations
 
 import os
+import re
 import statistics
 import subprocess
 import sys
@@ -156,8 +157,9 @@ def brackets(old: str | None) -> None:
             was = in_child(old, "cdf", (e, 1.0), kw) if old else float("nan")
         except (subprocess.SubprocessError, ValueError):
             was = float("nan")  # refused by the previous implementation (grid over its limit)
-        grid = a.method.split(" of ")[1].split(" points")[0] if " of " in a.method else "?"
-        row(k, fmt(now), fmt(was), f"{a.upper - a.lower:.2e}", grid)
+        m = re.search(r"FFT of (\d+) points", a.method)
+        row(k, fmt(now), fmt(was) if was == was else "refused", f"{a.upper - a.lower:.2e}",
+            m.group(1) if m else "?")
     print(f"  growth k=100 -> 10^4: x{growth[-1] / growth[1]:.1f} (grid ~ sqrt(k))")
     # the explicit baseline where it can run: numpy eigvalsh on the built product
     import powerspec as ps

@@ -388,11 +388,16 @@ class _Query:
             u = np.log(np.abs(t))
         return np.sign(t), np.where(t == 0, 0.0, u)
 
-    def _ev(self, tier, t, strict):
+    def _ev(self, tier, t, strict, d=None):
+        """The tier at s = t, its bounds widened for |s - t| <= d (one evaluation serves all three)."""
         if self.mode == "add":
-            return tier.evaluate(t, strict)
+            return tier.evaluate(t, strict, 0.0 if d is None else d)
         sign, u = self._s(t)
-        return tier.evaluate(sign, u, strict)
+        if d is None:
+            return tier.evaluate(sign, u, strict)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            du = np.log1p(d / np.abs(t)) * (1 + 1e-12)  # |log|s| - log|t|| for |s - t| <= d < |t|
+        return tier.evaluate(sign, u, strict, du)
 
     def _threshold(self, x):
         """(t, d): s = (x - alpha) / beta rounded, and a bound d on its rounding error (no overflow)."""
@@ -412,15 +417,18 @@ class _Query:
         self._flat()
         b = self.beta
         t, d = self._threshold(x)
+        # the rounding d of s = (x - alpha) / beta is folded into the tier's own bounds; only a
+        # multiplicative rule with t within d of 0 (the sign of s unknown) needs separate points
+        split = self.mode == "mul" and bool(np.any(np.abs(t) <= 2 * d))
         if b > 0:
-            e = self._ev(tier, t, strict)
-            lo = self._ev(tier, t - d, strict)[1] if np.any(d) else e[1]
-            hi = self._ev(tier, t + d, strict)[2] if np.any(d) else e[2]
+            e = self._ev(tier, t, strict, None if split else d)
+            lo = self._ev(tier, t - d, strict)[1] if split else e[1]
+            hi = self._ev(tier, t + d, strict)[2] if split else e[2]
             e = e[0]
         else:
-            c = self._ev(tier, t, not strict)
-            lo = 1 - (self._ev(tier, t + d, not strict)[2] if np.any(d) else c[2])
-            hi = 1 - (self._ev(tier, t - d, not strict)[1] if np.any(d) else c[1])
+            c = self._ev(tier, t, not strict, None if split else d)
+            lo = 1 - (self._ev(tier, t + d, not strict)[2] if split else c[2])
+            hi = 1 - (self._ev(tier, t - d, not strict)[1] if split else c[1])
             e = 1 - c[0]
         lo = np.maximum(0.0, lo * (1 - OUT_SLACK) - OUT_SLACK * 1e-3)
         hi = np.minimum(1.0, hi * (1 + OUT_SLACK))

@@ -164,12 +164,13 @@ def quantiles(query, tier, levels: list[Fraction]):
     if open_.any():
         idx = np.flatnonzero(open_)
 
-        def f(y):
-            v = curve(y, branch[idx])
-            return np.choose(comp[idx], v)
+        def f(y, sub):
+            v = curve(y, branch[idx[sub]])
+            return np.choose(comp[idx[sub]], v)
 
         xtol = curve.xtol_abs + 4 * EPS * np.maximum(np.abs(a[idx]), np.abs(b[idx]))
-        ra, rb, _ = step_bracket(f, tgt[idx], a[idx], b[idx], xtol=xtol, flo=fa[idx], fhi=fb[idx])
+        ra, rb, _ = step_bracket(f, tgt[idx], a[idx], b[idx], xtol=xtol, flo=fa[idx], fhi=fb[idx],
+                                 indexed=True)
         a[idx], b[idx] = ra, rb
     out = ([], [], [])
     for i in range(m):

@@ -250,13 +250,14 @@ class AddLaw:
         self.params = {"mean": law.mu + float(self.p @ self.e),
                        "variance": law.variance + float(self.p @ (self.e - self.p @ self.e) ** 2)}
 
-    def evaluate(self, t, strict: bool = False):
-        """(estimate, lower, upper) arrays of P(S <= t) (P(S < t) if strict)."""
+    def evaluate(self, t, strict: bool = False, pad=0.0):
+        """(estimate, lower, upper) arrays of P(S <= t) (P(S < t) if strict); ``pad`` as in SumLaw."""
         t = np.asarray(t, dtype=float)
         y = t.reshape(-1, 1) - self.e
-        est = self.law.evaluate(y, strict)[0] @ self.p
-        lo = self.law.evaluate(y - self.ea, strict)[1] @ self.p
-        hi = self.law.evaluate(y + self.ea, strict)[2] @ self.p
+        pd = np.broadcast_to(np.asarray(pad, dtype=float), t.shape).reshape(-1, 1)
+        # the exact atoms' radii widen the point like the pad does: one evaluation serves all three
+        est, lo, hi = self.law.evaluate(y, strict, pad=pd + self.ea)
+        est, lo, hi = est @ self.p, lo @ self.p, hi @ self.p
         lo, hi = np.clip(lo, 0.0, 1.0), np.clip(hi, 0.0, 1.0)
         hi = np.where(hi > 0, np.maximum(hi, TINY), 0.0)
         return (np.clip(est, lo, hi).reshape(t.shape), lo.reshape(t.shape), hi.reshape(t.shape))
@@ -392,9 +393,13 @@ class MulLaw:
         self.params = {"zero_mass": zero, "positive_share": nzm * self.law.pos_total,
                        "negative_share": nzm * self.law.neg_total, "log_mean": m, "log_variance": var}
 
-    def evaluate(self, sign, u, strict: bool = False):
-        """(estimate, lower, upper) arrays of P(S <= t), t = sign * exp(u) (mixture over exact atoms)."""
-        sign, u = np.broadcast_arrays(np.asarray(sign, dtype=float), np.asarray(u, dtype=float))
+    def evaluate(self, sign, u, strict: bool = False, pad=0.0):
+        """(estimate, lower, upper) arrays of P(S <= t), t = sign * exp(u) (mixture over exact atoms).
+
+        ``pad`` (in u) widens the bounds for an uncertain point.
+        """
+        sign, u, pad = np.broadcast_arrays(np.asarray(sign, dtype=float), np.asarray(u, dtype=float),
+                                           np.asarray(pad, dtype=float))
         est = np.zeros(sign.shape)
         lo = np.zeros(sign.shape)
         hi = np.zeros(sign.shape)
@@ -405,20 +410,14 @@ class MulLaw:
                 est, lo, hi = est + p * v, lo + p * v, hi + p * v
                 continue
             le = math.log(abs(e))
-            sl = math.log1p(er) * 1.0001 + 4 * EPS * (1 + abs(le)) if er else 0.0
+            # the atom's relative radius is an uncertainty of u: it widens the pad
+            sl = math.log1p(er) * 1.0001 + 4 * EPS * (1 + abs(le)) if er else 4 * EPS * (1 + abs(le))
             if e > 0:
-                a0 = ev(sign, u - le, strict)[0]
-                a1 = ev(sign, u - le - sign * sl, strict)[1] if sl else None
-                a2 = ev(sign, u - le + sign * sl, strict)[2] if sl else None
-                if a1 is None:
-                    a0, a1, a2 = ev(sign, u - le, strict)
+                a0, a1, a2 = ev(sign, u - le, strict, pad + sl)
                 est, lo, hi = est + p * a0, lo + p * a1, hi + p * a2
             else:
                 # P(e S <= t) = 1 - P(S < t / e); t / e has the opposite sign
-                b0, b1, b2 = ev(-sign, u - le, not strict)
-                if sl:
-                    b1 = ev(-sign, u - le + sign * sl, not strict)[1]
-                    b2 = ev(-sign, u - le - sign * sl, not strict)[2]
+                b0, b1, b2 = ev(-sign, u - le, not strict, pad + sl)
                 est, lo, hi = est + p * (1 - b0), lo + p * (1 - b2), hi + p * (1 - b1)
         lo, hi = np.clip(lo, 0.0, 1.0), np.clip(hi, 0.0, 1.0)
         return np.clip(est, lo, hi), lo, hi
@@ -453,7 +452,7 @@ class MulLaw:
 
 
 # ----------------------------------------------------------- bracket tiers
-MIN_POINTS = 1 << 19
+MIN_POINTS = 1 << 16
 """Off lattices a grid this small is refined (cheaply) beyond what ``tol`` asks for."""
 
 
@@ -492,8 +491,8 @@ class AddBracketTier:
             f"{self.b.tau:.3g} (tail {self.b.eta:.2g}), the values' radii and an explicit FFT, "
             f"aliasing and summation error bound {self.b.err:.2g}")
 
-    def evaluate(self, t, strict: bool = False):
-        return self.b.evaluate(t, strict)
+    def evaluate(self, t, strict: bool = False, pad=0.0):
+        return self.b.evaluate(t, strict, pad)
 
     def support(self):
         return self.b.support()
@@ -537,8 +536,8 @@ class MulBracketTier:
             f"certified bounds from the rounding shift {self.b.shift:.3g} in log|s| (Bernstein) and "
             f"an explicit FFT, aliasing and summation error bound {self.b.err:.2g}")
 
-    def evaluate(self, sign, u, strict: bool = False):
-        return self.b.evaluate(sign, u, strict)
+    def evaluate(self, sign, u, strict: bool = False, pad=0.0):
+        return self.b.evaluate(sign, u, strict, pad)
 
     def log_range(self):
         return self.b.log_range()

@@ -330,20 +330,24 @@ class AddBracket:
                          self.cum.size - 1).astype(np.int64)
         return np.where(jj < 0, 0.0, self.cum[np.maximum(jj, 0)])
 
-    def evaluate(self, t, strict: bool = False):
-        """(estimate, lower, upper) of P(S <= t) (P(S < t) if strict), elementwise."""
+    def evaluate(self, t, strict: bool = False, pad=0.0):
+        """(estimate, lower, upper) of P(S <= t) (P(S < t) if strict), elementwise.
+
+        ``pad`` (>= 0) widens the bounds for an uncertain point t +- pad.
+        """
         t = np.asarray(t, dtype=float)
+        pad = np.asarray(pad, dtype=float)
         m = float(self.mean_shift)
         est = self._cum(t - m, strict)
         lo = np.full(t.shape, -np.inf)
         hi = np.full(t.shape, np.inf)
         for tau, eta in self.plan.options:
-            shift = tau + self.radius
-            if shift == 0 and self.mean_shift == 0:
+            shift = tau + self.radius + pad
+            if not np.any(shift) and self.mean_shift == 0:
                 lo_y, hi_y = t, t  # exact grid: ties are decided exactly in _index
             else:
-                pad = shift + 4 * EPS * (np.abs(t) + abs(self._base) + self.h * self.points)
-                lo_y, hi_y = t - m - pad, t - m + pad
+                wid = shift + 4 * EPS * (np.abs(t) + abs(self._base) + self.h * self.points)
+                lo_y, hi_y = t - m - wid, t - m + wid
             lo = np.maximum(lo, self._cum(lo_y, strict) - self.err - eta)
             hi = np.minimum(hi, self._cum(hi_y, strict) + self.err + eta)
         lo, hi = np.clip(lo, 0.0, 1.0), np.clip(hi, 0.0, 1.0)
@@ -430,9 +434,13 @@ class MulBracket:
                          arr.size - 1).astype(np.int64)
         return np.where(jj < 0, 0.0, arr[np.maximum(jj, 0)])
 
-    def evaluate(self, sign, u, strict: bool = False):
-        """(estimate, lower, upper) of P(S <= t) (P(S < t) if strict), t = sign * exp(u), elementwise."""
-        sign, u = np.broadcast_arrays(np.asarray(sign, dtype=float), np.asarray(u, dtype=float))
+    def evaluate(self, sign, u, strict: bool = False, pad=0.0):
+        """(estimate, lower, upper) of P(S <= t) (P(S < t) if strict), t = sign * exp(u), elementwise.
+
+        ``pad`` (>= 0, in u) widens the bounds for an uncertain point.
+        """
+        sign, u, pad = np.broadcast_arrays(np.asarray(sign, dtype=float), np.asarray(u, dtype=float),
+                                           np.asarray(pad, dtype=float))
         if self.empty:
             v = ((sign > 0) | ((sign == 0) & (not strict))).astype(float)
             return v, v, v
@@ -445,21 +453,21 @@ class MulBracket:
         tiny = self.h * 1e-9
         pos = sign > 0
         if pos.any():
-            uu = u[pos]
+            uu, pp = u[pos], pad[pos]
             base = self.zero + self.neg
-            lo[pos] = max(base + self._cum(self.even, uu - sh) - self.err - eta
-                          for sh, eta in self.shifts)
-            hi[pos] = min(base + self._cum(self.even, uu + sh) + self.err + eta
-                          for sh, eta in self.shifts)
+            lo[pos] = np.max([base + self._cum(self.even, uu - sh - pp) - self.err - eta
+                              for sh, eta in self.shifts], axis=0)
+            hi[pos] = np.min([base + self._cum(self.even, uu + sh + pp) + self.err + eta
+                              for sh, eta in self.shifts], axis=0)
             est[pos] = base + self._cum(self.even, uu - tiny if strict else uu + tiny)
         neg = sign < 0
         if neg.any():
             # S <= t < 0  <=>  log|S| >= u: negative mass minus P(neg, log|S| < u)
-            uu = u[neg]
-            lo[neg] = max(self.neg - self._cum(self.odd, uu + sh) - self.err - eta
-                          for sh, eta in self.shifts)
-            hi[neg] = min(self.neg - self._cum(self.odd, uu - sh) + self.err + eta
-                          for sh, eta in self.shifts)
+            uu, pp = u[neg], pad[neg]
+            lo[neg] = np.max([self.neg - self._cum(self.odd, uu + sh + pp) - self.err - eta
+                              for sh, eta in self.shifts], axis=0)
+            hi[neg] = np.min([self.neg - self._cum(self.odd, uu - sh - pp) + self.err + eta
+                              for sh, eta in self.shifts], axis=0)
             est[neg] = self.neg - self._cum(self.odd, uu + tiny if strict else uu - tiny)
         lo, hi = np.clip(lo, 0.0, 1.0), np.clip(hi, 0.0, 1.0)
         return np.clip(est, lo, hi), lo, hi

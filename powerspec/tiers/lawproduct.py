@@ -359,6 +359,7 @@ class BinomialWindow:
             out["R" + name] = rq
             extra = s0 * (eps + self.slack * _PHI0 / s_min + self.weight_rel)
             out["D" + name] = (rq + extra) * (1 + 1e-12)
+            out["L" + name] = s0 * _PHI0 / s_min * (1 + 1e-12)  # Lipschitz constant in u
         return out
 
     def density(self, u, side: int) -> np.ndarray:
@@ -371,19 +372,21 @@ class BinomialWindow:
         z = (u.reshape(-1, 1) - m) / s
         return ((w / s) * np.exp(-0.5 * z * z)).sum(axis=1).reshape(u.shape) * _PHI0
 
-    def g(self, u, side: int, strict: bool):
+    def g(self, u, side: int, strict: bool, pad=0.0):
         """(estimate, lower, upper) of sum_j w_j P(log|S| <= u | j), w = wp (side > 0) or wn.
 
-        ``strict`` asks for P(log|S| < u | j) (it matters for exact points only).
+        ``strict`` asks for P(log|S| < u | j) (it matters for exact points only);
+        ``pad`` widens the bounds for an uncertain point u +- pad.
         """
         u = np.asarray(u, dtype=float)
+        pad = np.broadcast_to(np.asarray(pad, dtype=float), u.shape)
         nm = "p" if side > 0 else "n"
         est = np.zeros(u.shape)
         lo = np.zeros(u.shape)
         hi = np.zeros(u.shape)
         if self.pt_mu.size:
             cp = self.pt_cp if side > 0 else self.pt_cn
-            sl = self.slack
+            sl = self.slack + pad
             e_idx = np.searchsorted(self.pt_mu, u, side="left" if strict else "right")
             lo_idx = np.searchsorted(self.pt_mu, u - sl, side="left" if strict else "right")
             hi_idx = np.searchsorted(self.pt_mu, u + sl, side="left" if strict else "right")
@@ -392,15 +395,18 @@ class BinomialWindow:
         if self._blocks is not None:
             blk = self._blocks
             w, m, s, dd = blk["W" + nm], blk["mu" + nm], blk["sd" + nm], blk["D" + nm]
+            lip = blk["L" + nm]
             flat = u.ravel()
+            fpad = pad.ravel()
             chunk = max(1, 2_000_000 // max(1, w.size))
             e_out, l_out, h_out = (np.empty(flat.size) for _ in range(3))
             for i in range(0, flat.size, chunk):
                 uu = flat[i:i + chunk, None]
                 eb = w * ncdf((uu - m) / s)
+                dp = dd + fpad[i:i + chunk, None] * lip
                 e_out[i:i + chunk] = eb.sum(axis=1)
-                l_out[i:i + chunk] = np.maximum(eb - dd, 0.0).sum(axis=1)
-                h_out[i:i + chunk] = np.minimum(eb + dd, w).sum(axis=1)
+                l_out[i:i + chunk] = np.maximum(eb - dp, 0.0).sum(axis=1)
+                h_out[i:i + chunk] = np.minimum(eb + dp, w).sum(axis=1)
             est = est + e_out.reshape(u.shape)
             lo = lo + l_out.reshape(u.shape)
             hi = hi + h_out.reshape(u.shape)
@@ -439,7 +445,7 @@ class ProductLaw:
             self.neg_total = sum(c[1] for c in self.components)
             self.pos_total = sum(c[0] for c in self.components)
 
-    def _g(self, u, side: int, strict: bool):
+    def _g(self, u, side: int, strict: bool, pad):
         est = np.zeros(u.shape)
         lo = np.zeros(u.shape)
         hi = np.zeros(u.shape)
@@ -447,20 +453,22 @@ class ProductLaw:
             w = wp if side > 0 else wn
             if w == 0:
                 continue
-            e, bl, bh = law.evaluate(u, strict)
+            e, bl, bh = law.evaluate(u, strict, pad=pad)
             est, lo, hi = est + w * e, lo + w * bl, hi + w * bh
         if self.window is not None:
-            e, bl, bh = self.window.g(u, side, strict)
+            e, bl, bh = self.window.g(u, side, strict, pad)
             est, lo, hi = est + e, lo + bl, hi + bh
         return est, lo, hi
 
-    def evaluate(self, sign, u, strict: bool = False):
+    def evaluate(self, sign, u, strict: bool = False, pad=0.0):
         """(estimate, lower, upper) arrays of P(S <= t) (P(S < t) if strict), t = sign * exp(u).
 
         ``sign`` is -1, 0 or 1 per point (0 means t = 0, u is then ignored).
         At t = 0 the answer is exact: the zero mass and the sign shares are.
+        ``pad`` (in u) widens the bounds for an uncertain point.
         """
-        sign, u = np.broadcast_arrays(np.asarray(sign, dtype=float), np.asarray(u, dtype=float))
+        sign, u, pad = np.broadcast_arrays(np.asarray(sign, dtype=float), np.asarray(u, dtype=float),
+                                           np.asarray(pad, dtype=float))
         nz = self.nonzero
         neg_mass = nz * self.neg_total
         ex = self.extra  # probability outside the window: in upper bounds of G only
@@ -470,13 +478,13 @@ class ProductLaw:
         with np.errstate(all="ignore"):
             pos = sign > 0
             if pos.any():
-                e, bl, bh = self._g(u[pos], 1, strict)
+                e, bl, bh = self._g(u[pos], 1, strict, pad[pos])
                 base = self.zero + neg_mass
                 est[pos], lo[pos], hi[pos] = base + nz * e, base + nz * bl, base + nz * (bh + ex)
             neg = sign < 0
             if neg.any():
                 # S <= t < 0  <=>  log|S| >= u: the complement of G(u-) within the negative mass
-                e, bl, bh = self._g(u[neg], -1, not strict)
+                e, bl, bh = self._g(u[neg], -1, not strict, pad[neg])
                 est[neg] = nz * (self.neg_total - e)
                 lo[neg] = nz * (self.neg_total - bh - ex)
                 hi[neg] = nz * (self.neg_total - bl)

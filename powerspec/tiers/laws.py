@@ -469,7 +469,7 @@ class SumLaw(Law):
         _, lo, hi, _ = self.evaluate(x, False, with_log=True)
         return lo, hi
 
-    def evaluate(self, x, strict: bool = False, with_log: bool = False):
+    def evaluate(self, x, strict: bool = False, with_log: bool = False, pad=0.0):
         """(estimate, lower, upper) of P(S <= x) (P(S < x) if strict), elementwise, in one pass.
 
         The estimate is Edgeworth (two terms) for |z| < 2 and Lugannani--Rice
@@ -480,28 +480,29 @@ class SumLaw(Law):
         stay at least :data:`TINY`.  With ``with_log`` a fourth array holds the
         natural log of an upper bound (the Chernoff exponent where that is the
         smaller one), for callers that report bounds below the double range.
+        ``pad`` (>= 0, per point) widens the bounds for an uncertain point x +- pad.
         """
         x = np.asarray(x, dtype=float)
         with np.errstate(all="ignore"):
-            return self._evaluate(x, strict, with_log)
+            return self._evaluate(x, strict, with_log, self.slack + np.asarray(pad, dtype=float))
 
-    def _evaluate(self, x, strict, with_log):
+    def _evaluate(self, x, strict, with_log, slack):
         if self.degenerate:
             est = (x > self.shift if strict else x >= self.shift).astype(float)
-            lo = (x > self.shift + self.slack).astype(float)
-            hi = (x >= self.shift - self.slack).astype(float)
+            lo = (x > self.shift + slack).astype(float)
+            hi = (x >= self.shift - slack).astype(float)
             out = (est, lo, hi)
             return out + (np.log(np.maximum(hi, TINY)),) if with_log else out
         xc, d = self._corrected_point(x, strict)
         z = (xc - self.mu) / self.sd
         est = self._edgeworth(z)
-        xl, xh = x - self.slack, x + self.slack
+        xl, xh = x - slack, x + slack
         lo = ncdf((xl - self.mu) / self.sd) - self.eps
         hi = ncdf((xh - self.mu) / self.sd) + self.eps
         log_hi = np.log(np.maximum(hi, TINY))
         below, above = xh < self.mu, xl > self.mu
         tail_est = (np.abs(z) >= 2) & (xc > self.lo) & (xc < self.hi)
-        need = (below | above) & (x >= self.lo - self.slack) & (x <= self.hi + self.slack)
+        need = (below | above) & (x >= self.lo - slack) & (x <= self.hi + slack)
         # Chernoff cannot beat a small Berry-Esseen bound within 1.5 sd of the mean (its rate is
         # about z^2 / 2 there): skipping it costs no tightness and saves a saddlepoint
         if self.eps < 0.05:
@@ -521,8 +522,8 @@ class SumLaw(Law):
                     th, ok = self.saddlepoint(np.where(tail_est, xc, self.mu))
                 lr = self._lugannani_rice(np.where(tail_est, xc, self.mu + 3 * self.sd), th, ok, d)
                 est = np.where(tail_est, lr, est)
-        est = np.where(x < self.lo - self.slack, 0.0, est)
-        est = np.where(x >= self.hi + self.slack, 1.0, est)
+        est = np.where(x < self.lo - slack, 0.0, est)
+        est = np.where(x >= self.hi + slack, 1.0, est)
         lo = np.where(xl > self.hi, 1.0, lo)
         hi = np.where(xh < self.lo, 0.0, hi)
         log_hi = np.where(xh < self.lo, -np.inf, log_hi)

@@ -34,7 +34,8 @@ STALE = 3
 
 
 def step_bracket(f: Callable[[np.ndarray], np.ndarray], target, lo, hi, *, xtol,
-                 guess=None, step=None, flo=None, fhi=None, max_iter: int = 400):
+                 guess=None, step=None, flo=None, fhi=None, max_iter: int = 400,
+                 indexed: bool = False):
     """Brackets ``(a, b, evaluations)`` of the points where nondecreasing ``f`` reaches ``target``.
 
     ``f`` maps an array of points to an array of values; ``target``, ``lo``,
@@ -43,7 +44,9 @@ def step_bracket(f: Callable[[np.ndarray], np.ndarray], target, lo, hi, *, xtol,
     that ``a = b = lo`` where ``f(lo) >= target`` and ``a = b = hi`` where
     ``f(hi) < target`` (the root lies outside [lo, hi]).  ``evaluations`` is
     the number of calls of ``f``.  Exactness: a and b are points where the
-    inequality was *evaluated*, so any rigour of ``f`` carries over.
+    inequality was *evaluated*, so any rigour of ``f`` carries over.  With
+    ``indexed`` ``f(y, idx)`` is called with the element indices of the points
+    (only elements still iterating are evaluated).
     """
     t = np.atleast_1d(np.asarray(target, dtype=float))
     shape = t.shape
@@ -52,10 +55,19 @@ def step_bracket(f: Callable[[np.ndarray], np.ndarray], target, lo, hi, *, xtol,
     xtol = np.broadcast_to(np.asarray(xtol, dtype=float), shape).copy()
     calls = 0
 
-    def ev(y):
+    def ev(y, mask=None):
+        """f at y for the elements in mask (all by default); other entries are nan."""
         nonlocal calls
         calls += 1
-        return np.asarray(f(y), dtype=float).reshape(np.shape(y))
+        if mask is None:
+            mask = np.ones(shape, dtype=bool)
+        out = np.full(shape, np.nan)
+        if not mask.any():
+            return out
+        idx = np.flatnonzero(mask)
+        vals = f(y[mask], idx) if indexed else f(y[mask])
+        out[mask] = np.asarray(vals, dtype=float).reshape(-1)
+        return out
 
     a, b = lo.copy(), hi.copy()
     fa = np.full(shape, -np.inf)  # -inf / +inf: end not evaluated yet
@@ -78,7 +90,7 @@ def step_bracket(f: Callable[[np.ndarray], np.ndarray], target, lo, hi, *, xtol,
             open_ &= np.where(up, c < hi, c > lo)
             if not open_.any():
                 break
-            fc = ev(np.where(open_, c, cur))
+            fc = ev(np.where(open_, c, cur), open_)
             ge = fc >= t
             to_b, to_a = open_ & ge, open_ & ~ge
             b, fb = np.where(to_b, c, b), np.where(to_b, fc, fb)
@@ -88,9 +100,9 @@ def step_bracket(f: Callable[[np.ndarray], np.ndarray], target, lo, hi, *, xtol,
             st = st * 2.0
     need_a, need_b = ~np.isfinite(fa), ~np.isfinite(fb)
     if need_a.any():
-        fa = np.where(need_a, ev(a), fa)
+        fa = np.where(need_a, ev(a, need_a), fa)
     if need_b.any():
-        fb = np.where(need_b, ev(b), fb)
+        fb = np.where(need_b, ev(b, need_b), fb)
     below = fa >= t  # root at or below lo
     above = fb < t   # root above hi
     done = below | above | (b - a <= xtol)
@@ -118,7 +130,7 @@ def step_bracket(f: Callable[[np.ndarray], np.ndarray], target, lo, hi, *, xtol,
         r = np.clip(r, a + 0.5 * xtol, b - 0.5 * xtol)  # a root at an end is confirmed in one step
         c = np.where((stale >= STALE) | (b - a <= 2 * xtol), mid, r)
         c = np.where((c > a) & (c < b), c, mid)
-        fc = ev(np.where(act, c, a))
+        fc = ev(np.where(act, c, a), act)
         right = act & (fc >= t)
         left = act & ~right
         flat = (fc == fa) | (fc == fb)  # a piecewise constant stretch: secants carry no information
