@@ -30,19 +30,20 @@ from __future__ import annotations
 
 import io
 from collections.abc import Callable
-from fractions import Fraction
 from functools import cache
 from importlib import resources
 
 import numpy as np
 import scipy.io
 import scipy.sparse as sp
-from flint import arb, fmpq
+from flint import fmpq
 
 from powerspec.errors import InputError, SizeLimitError
 from powerspec.factors.factor import Factor, from_matrix
 from powerspec.factors.matrix import _check_count, _check_real, _format_number
-from powerspec.numbers.hp import cos2pi, rational, root_of_unity, sqrt_int, working
+from powerspec.factors.symbolic_families import dicycle_spectrum, unit_spectrum
+from powerspec.numbers import hp
+from powerspec.numbers.hp import rational, working
 
 MAX_FAMILY_ORDER = 1_000_000
 """Largest order of a family factor (its closed form is evaluated atom by atom)."""
@@ -80,6 +81,11 @@ def _grouped(pairs: list[tuple]) -> list[tuple]:
         else:
             rest.append((v, m))
     return [(v, m) for v, m in out.items()] + rest
+
+
+def _unit(family: str, args: tuple[int, ...]) -> Callable[[str], list | None]:
+    """The unit-weight closed form of a family member, in exact rationals and Arb balls."""
+    return lambda kind: unit_spectrum(family, args, kind, hp)
 
 
 def _form(unit: Callable[[str], list | None], kinds: tuple[str, ...]) -> Form:
@@ -121,20 +127,6 @@ def _order(n: int, what: str) -> None:
 
 
 # --------------------------------------------------------------------- families
-def _path_unit(n: int):
-    def unit(kind: str) -> list | None:
-        with working():
-            if kind == "adjacency":
-                return _grouped([(2 * cos2pi(Fraction(j, 2 * (n + 1))), 1) for j in range(1, n + 1)])
-            if kind in ("laplacian", "signless"):
-                return _grouped([(2 - 2 * cos2pi(Fraction(j, 2 * n)), 1) for j in range(n)])
-            if n < 2:
-                return None
-            c = [cos2pi(Fraction(j, 2 * (n - 1))) for j in range(n)]
-            return _grouped([((x if kind == "transition" else 1 - x), 1) for x in c])
-    return unit
-
-
 def P(n: int) -> Factor:
     """The path P_n on n >= 1 vertices (0 - 1 - ... - n-1).
 
@@ -147,7 +139,7 @@ def P(n: int) -> Factor:
     rows = np.concatenate([i, i + 1])
     cols = np.concatenate([i + 1, i])
     kinds = ("adjacency", "laplacian", "signless", "transition", "normalized")
-    return _family(rows, cols, n, f"P({n})", _form(_path_unit(n), kinds))
+    return _family(rows, cols, n, f"P({n})", _form(_unit("P", (n,)), kinds))
 
 
 def C(n: int) -> Factor:
@@ -162,12 +154,7 @@ def C(n: int) -> Factor:
     rows = np.concatenate([i, (i + 1) % n])
     cols = np.concatenate([(i + 1) % n, i])
 
-    def unit(kind: str) -> list:
-        with working():
-            return [(2 * cos2pi(Fraction(j, n)), 1 if 2 * j in (0, n) else 2)
-                    for j in range(n // 2 + 1)]
-
-    return _family(rows, cols, n, f"C({n})", _form(unit, ("adjacency",)))
+    return _family(rows, cols, n, f"C({n})", _form(_unit("C", (n,)), ("adjacency",)))
 
 
 _ABSENT = object()
@@ -191,11 +178,7 @@ def K(m: int, n: int = _ABSENT) -> Factor:
             raise SizeLimitError(f"K({m}) would store {m * (m - 1)} adjacency entries, more than "
                                  f"{MAX_FAMILY_NNZ}; use a smaller family member")
         rows, cols = np.nonzero(~np.eye(m, dtype=bool))
-
-        def unit(kind: str) -> list:
-            return [(fmpq(m - 1), 1)] + ([(fmpq(-1), m - 1)] if m > 1 else [])
-
-        return _family(rows, cols, m, f"K({m})", _form(unit, ("adjacency",)))
+        return _family(rows, cols, m, f"K({m})", _form(_unit("K", (m,)), ("adjacency",)))
     m = _check_count(m, "K(m, n)", 1, "m")
     n = _check_count(n, "K(m, n)", 1, "n")
     _order(m + n, f"K({m}, {n})")
@@ -207,19 +190,8 @@ def K(m: int, n: int = _ABSENT) -> Factor:
     rows = np.concatenate([left, right])
     cols = np.concatenate([right, left])
 
-    def unit(kind: str) -> list:
-        with working():
-            if kind == "adjacency":
-                r = sqrt_int(m * n)
-                return _grouped([(r, 1), (-r, 1), (fmpq(0), m + n - 2)])
-            if kind in ("laplacian", "signless"):
-                return _grouped([(fmpq(0), 1), (fmpq(m), n - 1), (fmpq(n), m - 1), (fmpq(m + n), 1)])
-            if kind == "transition":
-                return _grouped([(fmpq(1), 1), (fmpq(-1), 1), (fmpq(0), m + n - 2)])
-            return _grouped([(fmpq(0), 1), (fmpq(2), 1), (fmpq(1), m + n - 2)])
-
     kinds = ("adjacency", "laplacian", "signless", "transition", "normalized")
-    return _family(rows, cols, m + n, f"K({m}, {n})", _form(unit, kinds))
+    return _family(rows, cols, m + n, f"K({m}, {n})", _form(_unit("K", (m, n)), kinds))
 
 
 def J(n: int) -> Factor:
@@ -237,11 +209,8 @@ def J(n: int) -> Factor:
         raise SizeLimitError(f"J({n}) would store {n * n} entries, more than {MAX_FAMILY_NNZ}; "
                              "use a smaller family member")
     rows, cols = np.nonzero(np.ones((n, n), dtype=bool))
-
-    def unit(kind: str) -> list:
-        return [(fmpq(n - 1), 1)] + ([(fmpq(-1), n - 1)] if n > 1 else [])
-
-    return _family(rows, cols, n, f"J({n})", _form(unit, ("adjacency",)))
+    # J_n = K_n + I: the K_n form reads the unit loop off the matrix
+    return _family(rows, cols, n, f"J({n})", _form(_unit("J", (n,)), ("adjacency",)))
 
 
 def _dicycle_form(n: int) -> Form:
@@ -255,35 +224,8 @@ def _dicycle_form(n: int) -> Form:
         dense_w = [float(adj[i, (i + 1) % n]) for i in range(n)]
         if adj.nnz != sum(1 for w in dense_w if w) + (n if loop != 0 else 0):
             return None
-        prod = fmpq(1)
-        for w in dense_w:
-            prod *= rational(w)
-        with working():
-            if prod == 0:
-                return [(loop, n)]
-            g = _nth_root(abs(prod), n)
-            half = Fraction(0) if prod > 0 else Fraction(1, 2 * n)
-            return [(g * root_of_unity(Fraction(j, n) + half) + loop, 1) for j in range(n)]
+        return dicycle_spectrum([rational(w) for w in dense_w], loop, hp)
     return form
-
-
-def _nth_root(q: fmpq, n: int):
-    """q^(1/n) for a positive rational q: exact when it is rational, else a ball."""
-    p, d = int(q.p), int(q.q)
-    rp, rd = _iroot(p, n), _iroot(d, n)
-    if rp is not None and rd is not None:
-        return fmpq(rp, rd)
-    return arb(q).root(n)
-
-
-def _iroot(x: int, n: int) -> int | None:
-    r = round(x ** (1.0 / n)) if x.bit_length() < 1000 else None
-    if r is None:
-        return None
-    for c in (r - 1, r, r + 1):
-        if c >= 0 and c**n == x:
-            return c
-    return None
 
 
 def dicycle(n: int, w=None) -> Factor:

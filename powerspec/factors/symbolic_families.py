@@ -6,7 +6,7 @@ memory; the same formulas as :mod:`powerspec.factors.families`) computed in the
 context ``ctx``: any object with ``working``, ``rational``, ``cos2pi``,
 ``root_of_unity``, ``sqrt_int`` and ``nth_root``.  The module
 :mod:`powerspec.numbers.hp` (exact flint rationals and certified balls; it lacks
-only ``nth_root``, which families.py keeps as ``_nth_root``) and
+also ``nth_root``) and
 :data:`powerspec.numbers.symbolic.SYMPY` (exact sympy expressions) both qualify,
 and give the same values as the families' own closed forms -- so the families
 can adopt these functions unchanged.  This module imports neither sympy nor the
@@ -27,17 +27,22 @@ from typing import Any
 
 
 def _grouped(pairs: list[tuple[Any, int]]) -> list[tuple[Any, int]]:
-    """Merge values that compare equal (exact values; balls only when exact); drop empty ones."""
+    """Merge values that are equal as exact numbers (rationals, exact symbolic forms) in linear
+    time; balls are left apart (overlapping balls are merged later, by the spectrum); drop
+    zero multiplicities."""
     out: list[list] = []
+    seen: dict = {}
     for v, m in pairs:
         if m == 0:
             continue
-        for slot in out:
-            if slot[0] == v:
-                slot[1] += m
-                break
-        else:
-            out.append([v, m])
+        exact = type(v).__name__ not in ("arb", "acb")
+        slot = seen.get(v) if exact else None
+        if slot is None:
+            slot = [v, 0]
+            out.append(slot)
+            if exact:
+                seen[v] = slot
+        slot[1] += m
     return [(v, m) for v, m in out]
 
 

@@ -122,24 +122,27 @@ def _up(f: float) -> float:
 
 
 # ------------------------------------------------------------ closed-form helpers
-_RATIONAL_COS = {Fraction(0): Fraction(1), Fraction(1, 6): Fraction(1, 2), Fraction(1, 4): Fraction(0),
-                 Fraction(1, 3): Fraction(-1, 2), Fraction(1, 2): Fraction(-1)}
+_RATIONAL_COS = {0: fmpq(1), 2: fmpq(1, 2), 3: fmpq(0), 4: fmpq(-1, 2), 6: fmpq(-1)}
+"""cos(2 pi t) for the rational values, keyed by 12 t (Niven's theorem)."""
 
 
 def cos2pi(t: Fraction) -> fmpq | arb:
     """cos(2 pi t) for a rational t: exact when rational (Niven's theorem), else a ball.
 
     By Niven's theorem cos(2 pi t) is rational only when it is 0, +-1/2 or +-1,
-    i.e. when the reduced denominator of t divides 4 or 6.
+    i.e. when the reduced denominator of t divides 4 or 6.  Symmetric values are
+    exact negations of one another (cos(pi - x) = -cos x), so |value| classes
+    of a spectrum are identical balls.  Integer arithmetic only (this runs once
+    per eigenvalue of large cycles and paths).
     """
-    t = Fraction(t) % 1
-    u = min(t, 1 - t)
-    if u in _RATIONAL_COS:
-        c = _RATIONAL_COS[u]
-        return fmpq(c.numerator, c.denominator)
-    if u > Fraction(1, 4):  # cos(pi - x) = -cos(x): symmetric values are exact negations
-        return -cos2pi(Fraction(1, 2) - u)
-    return arb.cos_pi_fmpq(fmpq(2 * u.numerator, u.denominator))
+    t = Fraction(t)
+    num, den = t.numerator % t.denominator, t.denominator
+    a = min(num, den - num)  # cos(2 pi a/den), 0 <= a/den <= 1/2
+    if (12 * a) % den == 0 and (12 * a) // den in _RATIONAL_COS:
+        return _RATIONAL_COS[(12 * a) // den]
+    if 4 * a > den:  # u > 1/4: cos(2 pi u) = -cos(2 pi (1/2 - u))
+        return -arb.cos_pi_fmpq(fmpq(den - 2 * a, den))
+    return arb.cos_pi_fmpq(fmpq(2 * a, den))
 
 
 def sin2pi(t: Fraction) -> fmpq | arb:
@@ -161,6 +164,34 @@ def sqrt_int(m: int) -> fmpq | arb:
     if r * r == m:
         return fmpq(r)
     return arb(m).sqrt()
+
+
+def nth_root(q: fmpq, n: int) -> fmpq | arb:
+    """q^(1/n) for a positive rational q: exact when it is rational, else a ball.
+
+    >>> nth_root(fmpq(8, 27), 3), nth_root(fmpq(2), 2).contains(arb(2).sqrt())
+    (2/3, True)
+    """
+    q = rational(q) if not isinstance(q, fmpq) else q
+    p, d = int(q.p), int(q.q)
+    rp, rd = _iroot(p, n), _iroot(d, n)
+    if rp is not None and rd is not None:
+        return fmpq(rp, rd)
+    return arb(q).root(n)
+
+
+def _iroot(x: int, n: int) -> int | None:
+    """The exact integer n-th root of x >= 0, or None when x is not an n-th power."""
+    if x < 2:
+        return x
+    lo, hi = 0, 1 << (x.bit_length() // n + 1)
+    while lo < hi:  # largest r with r**n <= x
+        mid = (lo + hi + 1) // 2
+        if mid**n <= x:
+            lo = mid
+        else:
+            hi = mid - 1
+    return lo if lo**n == x else None
 
 
 # ------------------------------------------------------------------ conversions
@@ -200,5 +231,5 @@ def cball(mid: complex, rad: float) -> fmpq | arb | acb:
 
 
 __all__ = ["HP", "PREC", "as_acb", "as_ball", "ball", "cball", "contains", "cos2pi", "from_float",
-           "is_exact", "is_real", "radius", "rational", "real_part", "root_of_unity", "sin2pi",
-           "sqrt_int", "to_mpmath", "working"]
+           "is_exact", "is_real", "nth_root", "radius", "rational", "real_part", "root_of_unity",
+           "sin2pi", "sqrt_int", "to_mpmath", "working"]
