@@ -314,3 +314,19 @@ def test_auto_never_picks_a_tier_ten_times_dearer():
             assert tier.name == "law"
             continue
         assert tier.name in meet and meet[tier.name] <= 10 * min(meet.values()), (expr, tier.name, meet)
+
+
+def test_non_zero_mass_below_the_double_range_keeps_upper_bounds_positive():
+    # source: direct(P(3)^k): an eigenvalue is non-zero iff no factor contributes P(3)'s zero
+    # eigenvalue, probability (2/3)^k (about 10^-176091259 at k = 10^9, mpmath); the non-zero ones
+    # are +-2^(k/2) (P(3) spectrum 0, +-sqrt 2), half negative, so P(lambda <= -1) = (2/3)^k / 2 > 0
+    # and every upper bound must stay above 0
+    k = 10**9
+    truth_at_most = mpmath.power(mpmath.mpf(2) / 3, k)
+    assert truth_at_most > 0
+    for method in ("law", "bracket"):
+        a = cdf(f"direct(P(3)^{k})", -1.0, method=method)
+        assert a.upper > 0 and a.lower == 0.0
+    d = ps.distribution(f"direct(P(3)^{k})")
+    est, lo, hi = d.cdf([-1.0], bounds=True)
+    assert hi[0] > 0

@@ -359,7 +359,8 @@ class MulLaw:
         rest.slack += rel_slack
         self.rest = rest
         if not dep:
-            self.law = ProductLaw(zero, [((1 + q_rest) / 2, (1 - q_rest) / 2, rest)])
+            self.law = ProductLaw(zero, [((1 + q_rest) / 2, (1 - q_rest) / 2, rest)],
+                                  log_nonzero=log_nz)
             how = "log-normal law of |s| with exact zero mass and exact sign shares"
             eps = rest.eps
         else:
@@ -370,7 +371,7 @@ class MulLaw:
             win = BinomialWindow(k, r_neg, _log_stats(v, p, a), _log_stats(v, p, b),
                                  rest if indep else None, q_rest,
                                  mean_round + (0.0 if indep else rest.slack))
-            self.law = ProductLaw(zero, window=win)
+            self.law = ProductLaw(zero, window=win, log_nonzero=log_nz)
             eps = win.eps_max
             how = ("mixture over the number of negative factors of log-normal laws of |s| "
                    f"({win.nblocks} blocks, quadrature error <= {win.quad_err:.1g}), exact zero "

@@ -403,7 +403,9 @@ class MulBracket:
         q = q_sign * math.exp(log_q) if log_q > -math.inf else 0.0  # normalized balance
         self.pos = self.nonzero * (1 + q) / 2
         self.neg = self.nonzero * (1 - q) / 2
-        self.empty = self.nonzero == 0.0
+        self.empty = log_nonzero == -math.inf  # exactly all zero
+        # a non-zero mass below the double range: upper bounds of non-zero parts stay above 0
+        self.floor = 1e-300 if (not self.empty and self.nonzero == 0.0) else 0.0
         self.points = 0
         self.err = 0.0
         self.shift = 0.0
@@ -470,6 +472,7 @@ class MulBracket:
                               for sh, eta in self.shifts], axis=0)
             est[neg] = self.neg - self._cum(self.odd, uu + tiny if strict else uu - tiny)
         lo, hi = np.clip(lo, 0.0, 1.0), np.clip(hi, 0.0, 1.0)
+        hi = np.maximum(hi, self.floor)  # always a valid upper bound; > 0 when mass may underflow
         return np.clip(est, lo, hi), lo, hi
 
     def log_range(self) -> tuple[float, float]:

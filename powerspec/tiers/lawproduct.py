@@ -427,12 +427,16 @@ class ProductLaw:
     """
 
     def __init__(self, zero: float, components=(), window: BinomialWindow | None = None,
-                 extra: float = 0.0):
+                 extra: float = 0.0, log_nonzero: float | None = None):
         self.zero = float(zero)
         self.components = list(components)
         self.window = window
         self.extra = float(extra) + (window.extra if window is not None else 0.0)
-        self.nonzero = 1.0 - self.zero
+        # P(S != 0) from its logarithm when given: 1 - zero loses it when zero rounds to 1, and a
+        # non-zero mass below the double range must still keep upper bounds above 0
+        self.nonzero = math.exp(log_nonzero) if log_nonzero is not None else 1.0 - self.zero
+        self.mass_possible = (log_nonzero is None and self.nonzero > 0) or (
+            log_nonzero is not None and log_nonzero > -math.inf)
         # exact sign shares given S != 0: 1/2 (1 -+ Q) with Q the product of the sign balances
         if window is not None:
             qd = 1 - 2 * window.r  # sign balance of the dependent operand
@@ -489,12 +493,14 @@ class ProductLaw:
                 lo[neg] = nz * (self.neg_total - bh - ex)
                 hi[neg] = nz * (self.neg_total - bl)
             hi = np.minimum(1.0, hi * (1 + REL_SLACK))
-            hi = np.where(hi > 0, np.maximum(hi, TINY), 0.0)
+            floor = TINY if self.mass_possible else 0.0  # the non-zero part may underflow
+            hi = np.where(hi > 0, np.maximum(hi, TINY), floor)
             lo = np.maximum(0.0, lo * (1 - REL_SLACK) - REL_SLACK * 1e-3)
             zer = sign == 0
             base = neg_mass + (0.0 if strict else self.zero)
             lo = np.where(zer, base * (1 - 4 * EPS), lo)
-            hi = np.where(zer, min(1.0, base * (1 + 4 * EPS)), hi)
+            hi = np.where(zer, min(1.0, max(base * (1 + 4 * EPS), floor if self.neg_total > 0
+                                            else 0.0)), hi)
             est = np.where(zer, base, est)
             est = np.clip(np.nan_to_num(est, nan=0.5), lo, hi)
         return est, lo, hi
