@@ -45,7 +45,6 @@ below (:func:`_atoms` and the ``_engine_*`` helpers).
 from __future__ import annotations
 
 import math
-from decimal import Decimal
 from fractions import Fraction
 
 import mpmath
@@ -188,13 +187,13 @@ def decimal_level(q) -> Fraction:
             f = Fraction(repr(float(q)))
         elif isinstance(q, (int, np.integer, Fraction)):
             f = Fraction(q)
-        elif isinstance(q, Decimal):
-            f = Fraction(q)
         elif isinstance(q, str):
             f = Fraction(q.strip())
+        elif hasattr(q, "as_integer_ratio"):  # decimal.Decimal and friends: their exact value
+            f = Fraction(*q.as_integer_ratio())
         else:
             raise bad
-    except (ValueError, ZeroDivisionError) as exc:
+    except (ValueError, ZeroDivisionError, OverflowError) as exc:
         raise bad from exc
     if not 0 < f < 1:
         raise bad
