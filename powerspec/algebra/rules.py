@@ -84,7 +84,30 @@ def apply(comb: Combination, x: Vec, y: Vec) -> Vec:
     s = x.add(y)
     if a != 1:
         s = s.mul(const(x, a))
-    return settle(s.add(p))
+    out = settle(s.add(p))
+    if a == 1 and isinstance(out, Balls):
+        # x + y + bxy cancels when the linearised value (1 + bx)(1 + by) is small against its
+        # factors; the product form cancels when x o y is small against 1.  Both balls are
+        # rigorous, so each element keeps the tighter one.
+        one = const(x, Fraction(1))
+        sx = one.add(x if b == 1 else x.mul(const(x, b)))
+        sy = one.add(y if b == 1 else y.mul(const(x, b)))
+        alt = sx.mul(sy).sub(one)
+        if b != 1:
+            alt = alt.mul(const(x, 1 / b))
+        out = _tighter(out, alt)
+    return out
+
+
+def _tighter(u: Balls, v: Balls) -> Balls:
+    """Elementwise the ball with the smaller absolute radius (both contain the value)."""
+    with np.errstate(divide="ignore"):
+        ru = np.where(u.rad > 0, np.log2(u.rad) + u.exp, -np.inf)
+        rv = np.where(v.rad > 0, np.log2(v.rad) + v.exp, -np.inf)
+    mask = rv < ru
+    if not np.any(mask):
+        return u
+    return _where(mask, v, u)
 
 
 def self_power(comb: Combination, x: Vec, c: np.ndarray) -> Vec:

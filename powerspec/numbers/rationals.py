@@ -107,7 +107,8 @@ class Rationals:
             g = math.gcd(g, int(v))
             if g == 1:
                 return self
-        return Rationals(self.num // g, self.den // g)
+        num = self.num if (self.num.dtype == object or g < _SAFE) else _obj(self.num)
+        return Rationals(num // g, self.den // g)
 
     @staticmethod
     def concat(parts: Sequence[Rationals]) -> Rationals:
@@ -186,7 +187,7 @@ class Rationals:
 def _scale(num: np.ndarray, f: int) -> np.ndarray:
     if f == 1:
         return num
-    if num.dtype != object and _maxabs(num) * f < _SAFE:
+    if num.dtype != object and f < _SAFE and _maxabs(num) * f < _SAFE:
         return num * f
     return _obj(num) * f
 
