@@ -201,8 +201,9 @@ def test_errors():
         cdf("cart(motif()^100000)", 0.0, method="exact")
     with pytest.raises(ps.NotExactError):
         cdf("mix(2, 1, P(3)^40)", 0.0, method="law")
+    # a power of a product of irregular factors: no rule, no symmetry operands, too large to build
     with pytest.raises(ps.NotExactError):
-        cdf("direct(P(3)^40)", 0.0, "laplacian")
+        cdf("direct(cart(P(3), K(1, 3))^40)", 0.0, "laplacian")
     with pytest.raises(ps.NotExactError):
         cdf("direct(dicycle(3)^40)", 0.0, method="law")
 

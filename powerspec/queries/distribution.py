@@ -66,6 +66,7 @@ from powerspec.queries.disttiers import (
     MulLaw,
 )
 from powerspec.tiers.bracket import GRID_LIMIT
+from powerspec.tiers.exact import exact_feasible, exact_spectrum
 
 METHODS = ("auto", "exact", "bracket", "law")
 DEFAULT_TOL = 1e-3
@@ -112,11 +113,12 @@ def _atoms(sp) -> Atoms:
 
 
 def _engine_spectrum(eng: Engine, node: Node, kind: str) -> Atoms:
-    return _atoms(eng.spectrum(node, kind))
+    # the exact tier's routes: product rules, symmetry blocks, explicit build
+    return _atoms(exact_spectrum(eng, node, kind)[0])
 
 
 def _engine_fits(eng: Engine, node: Node, kind: str) -> bool:
-    return eng.fits(node, kind)
+    return exact_feasible(eng, node, kind)
 
 
 def _engine_bound(eng: Engine, node: Node, kind: str) -> int:

@@ -93,8 +93,9 @@ class ExactTier:
         self.order = atoms.order
         mult = np.array(atoms.mult, dtype=object)
         self.method = (
-            "exact: the full spectrum combined from the factors' spectra, counted exactly "
-            "(atoms within their certified radius of x count in the upper bound only)")
+            "exact: the full certified spectrum (product rules, symmetry reduction or explicit "
+            "build), counted exactly (atoms within their certified radius of x count in the upper "
+            "bound only)")
         # three sorted views: by value (estimate), by value + radius (lower), by value - radius (upper)
         self._views = []
         for key in (v, v + r, v - r):

@@ -122,6 +122,26 @@ def symmetry_spectrum(engine: Engine, node: Node, kind: str, *, workers: int = 1
     return sp, how
 
 
+def exact_feasible(engine: Engine, node: Node, kind: str) -> bool:
+    """Cheap check, before any work, that :func:`exact_spectrum` fits the size limits."""
+    try:
+        engine.linear_form(node, kind) if isinstance(node, Product) else None
+        return engine.fits(node, kind)
+    except NotExactError:
+        pass
+    if isinstance(node.order, int) and node.order <= EXPLICIT_MAX:
+        return True
+    ops = symmetry_operands(engine, node)
+    if ops is None:
+        return False
+    try:
+        p = plan(ops, float(node.comb.a), float(node.comb.b), kind)
+        p.check(max_block=SYMMETRY_MAX_BLOCK, max_work=SYMMETRY_MAX_WORK)
+    except SymmetryError:
+        return False
+    return p.blocks * p.largest <= 4 * engine.limit
+
+
 def exact_spectrum(engine: Engine, node: Node, kind: str, *, workers: int = 1,
                    scheduler: str | None = None,
                    progress: Callable[[int, int], None] | None = None) -> tuple[Spectrum, str]:
@@ -151,4 +171,4 @@ def exact_spectrum(engine: Engine, node: Node, kind: str, *, workers: int = 1,
     raise NotExactError(f"{reason}; {sym_reason}")
 
 
-__all__ = ["EXPLICIT_MAX", "exact_spectrum", "symmetry_operands", "symmetry_spectrum"]
+__all__ = ["EXPLICIT_MAX", "exact_feasible", "exact_spectrum", "symmetry_operands", "symmetry_spectrum"]
