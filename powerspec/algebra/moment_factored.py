@@ -63,6 +63,16 @@ def _total(terms: list):
     return out
 
 
+def factorable(node: Node, kind: str) -> bool:
+    """True when :func:`factored` has a form for this node and kind (multiplicative rules)."""
+    if isinstance(node, Leaf):
+        return False
+    rule = MATRIX_RULES[kind](node.comb)
+    if rule is not None:
+        return rule.mode == "mul"
+    return kind in ("laplacian", "signless") and node.comb.mode == "mul"
+
+
 def factored(node: Node, kind: str, order: int, tau_of: Callable[[Node, str], list],
              words: WordTraces) -> list:
     """[order of the node, tr(M), ..., tr(M^order)] exactly, BigCount where enormous.
@@ -141,4 +151,4 @@ def _scaled(v, f: Fraction, p: int):
         raise SizeLimitError("the exact trace cannot be kept in factored form here") from exc
 
 
-__all__ = ["big_power", "factored"]
+__all__ = ["big_power", "factorable", "factored"]

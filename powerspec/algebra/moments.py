@@ -43,7 +43,7 @@ from functools import reduce
 
 from powerspec.algebra.kinds import MATRIX_KINDS, MATRIX_RULES, Combination
 from powerspec.algebra.moment_domains import BALL, EXACT, MAX_DIGITS, affine_moments, guard
-from powerspec.algebra.moment_factored import factored
+from powerspec.algebra.moment_factored import factorable, factored
 from powerspec.algebra.moment_traces import factor_matrix, matrix_traces
 from powerspec.algebra.tree import Leaf, Node
 from powerspec.algebra.words import MAX_FOLD, WordTraces
@@ -269,7 +269,7 @@ def trace_moments(node: Node, kind: str = "adjacency", order: int = 8, *, direct
     try:
         tau = eng.normalised(node, kind)
     except SizeLimitError:
-        if per_vertex:
+        if per_vertex or not factorable(node, kind):
             raise
         big = factored(node, kind, order, lambda child, k: eng.normalised(child, k),
                        WordTraces(EXACT, order, direction))

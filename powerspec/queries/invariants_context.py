@@ -31,7 +31,14 @@ from powerspec.algebra.words import MAX_FOLD
 from powerspec.errors import PowerspecError
 from powerspec.numbers.counts import bit_length, power_product, to_arb
 from powerspec.numbers.hp import as_ball, real_part, working
-from powerspec.queries.invariants_structure import degree_range, has_loops, nonnegative, shape
+from powerspec.queries.invariants_structure import (
+    Count,
+    degree_range,
+    has_loops,
+    nonnegative,
+    order_count,
+    shape,
+)
 from powerspec.spectra.spectrum import HPValues, Spectrum, mult_array
 from powerspec.tiers.invariant_blocks import laplacian_blocks
 from powerspec.tiers.symmetry import SymmetryError
@@ -163,10 +170,27 @@ class Context:
         """The exact spectrum of a node of the tree when cheap (atoms x bits), else ValueError."""
         if not isinstance(node, Leaf):
             bound = self.eng.bound(node, kind)
-            if bound > self.limit or bound * max(bit_length(node.order), 1) > FULL_BITS:
-                raise ValueError(f"the exact spectrum may hold {bound} atoms of "
-                                 f"{bit_length(node.order)}-bit multiplicities (limit {self.limit})")
+            bits = max(bit_length(node.order), 1) + self._value_bits(node, kind)
+            if bound > self.limit or bound * bits > FULL_BITS:
+                raise ValueError(f"the exact spectrum may hold {bound} atoms of about {bits} bits "
+                                 f"each (limit {self.limit} atoms, {FULL_BITS} bits)")
         return self.eng.spectrum(node, kind)
+
+    def _value_bits(self, node: Node, kind: str) -> int:
+        """Rough size in bits of one exact eigenvalue of the node (rational factor values grow)."""
+        if isinstance(node, Leaf):
+            v = self.eng.spectrum(node, kind).values
+            num = getattr(v, "num", None)
+            if num is None:
+                return 64
+            top = max((abs(int(x)).bit_length() for x in num.tolist()), default=0)
+            return max(top, int(v.den).bit_length(), 1)
+        rule = MATRIX_RULES[kind](node.comb)
+        use = kind if rule is not None else "adjacency"
+        kids = [(self._value_bits(c, use), k) for c, k in node.operands]
+        if node.comb.mode == "add":
+            return max(b for b, _ in kids) + sum(k for _, k in kids).bit_length()
+        return sum(b * k for b, k in kids) + 64
 
     def full(self, kind: str):
         """The exact spectrum, or None (too large, not exact, or refused)."""
@@ -197,6 +221,20 @@ class Context:
                     return near_zero
             return extremes(eng, self.node, kind, m, bottom)[0]
         return self._get(("ext", kind, m, bottom), compute)
+
+    def covering(self, kind: str):
+        """The whole spectrum from the extremes when a few top atoms already hold every eigenvalue."""
+        def compute():
+            top = self.ext(kind, 4, False)
+            if top is None:
+                raise ValueError("the extremes are not available")
+            total = Count.of(0)
+            for m in top.mult.tolist():
+                total = total + Count.of(m)
+            if (order_count(self.node) - total).value() != 0:
+                raise ValueError("the extreme atoms do not cover the spectrum")
+            return top
+        return self._get(("covering", kind), compute)
 
     def moments(self, kind: str):
         """[1, tau_1, ..., tau_4] as certified balls (normalised traces), or None."""

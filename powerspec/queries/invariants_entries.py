@@ -81,6 +81,8 @@ def _sci(x: arb, up: bool) -> str:
     toward_large = up != neg  # rounding the magnitude up
     with working():
         lg = mag.log() / arb(10).log()
+        if not abs(lg.mid()) < 1e15:  # the mantissa is beyond 160-bit reach: a power of ten
+            return _power_text(lg, toward_large, neg)
         e10 = _whole(lg.mid().floor())
         mant = mag / arb(10) ** e10 * arb(10) ** (SCI_DIGITS - 1)
         digits = _whole(mant.upper().ceil()) if toward_large else _whole(mant.lower().floor())
@@ -88,6 +90,13 @@ def _sci(x: arb, up: bool) -> str:
     e10 += len(s) - SCI_DIGITS
     text = f"{s[0]}.{s[1:]}e{e10:+d}"
     return "-" + text if neg else text
+
+
+def _power_text(lg: arb, toward_large: bool, neg: bool) -> str:
+    """'1e+N' bounding 10^lg from above (toward_large) or below, with the sign."""
+    with working():
+        e = _whole(lg.upper().ceil()) if toward_large else _whole(lg.lower().floor())
+    return ("-" if neg else "") + f"1e{e:+d}"
 
 
 def certified(value, method: str) -> dict:

@@ -327,9 +327,12 @@ def _direct_nonzero(cx: Context, node: Node):
 def nullity(cx: Context) -> dict:
     """The multiplicity of the adjacency eigenvalue 0 (exact, or a bracket when balls touch 0)."""
     sp = cx.full("adjacency")
+    how = "exact: multiplicity of 0 in the exact spectrum"
+    if sp is None:
+        sp = cx.covering("adjacency")
+        how = "exact: multiplicity of 0 among the extreme atoms, which hold the whole spectrum"
     if sp is not None:
         certain, possible = _zero_split(sp)
-        how = "exact: multiplicity of 0 in the exact spectrum"
     else:
         got = cx._get(("direct_nonzero",), lambda: _direct_nonzero(cx, cx.node))
         if got is None:
@@ -337,9 +340,11 @@ def nullity(cx: Context) -> dict:
                                "closed form for this product")
         certain, possible = got
         how = "exact: direct product, non-zero eigenvalues are products of non-zero factor eigenvalues"
-    n = order_count(cx.node)
-    lo, hi = (n - Count.of(possible) if not isinstance(possible, Count) else n - possible).value(), \
-        (n - Count.of(certain) if not isinstance(certain, Count) else n - certain).value()
+    if isinstance(cx.order, int) and isinstance(certain, int) and isinstance(possible, int):
+        lo, hi = cx.order - possible, cx.order - certain
+    else:
+        n = order_count(cx.node)
+        lo, hi = (n - possible).value(), (n - certain).value()
     if lo == hi:
         return entry(lo, lo, hi, how)
     return entry(None, lo, hi, how + "; bracket: some eigenvalue balls touch 0 at 160-bit precision")

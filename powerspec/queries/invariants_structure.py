@@ -119,7 +119,10 @@ class Count:
         """An int or BigCount as a Count."""
         if isinstance(x, BigCount):
             return cls(dict(x.terms))
-        return cls({(): Fraction(int(x))})
+        x = int(x)
+        if x.bit_length() > 1000:  # keep a huge coefficient out of float conversions
+            return cls({((x, 1),): Fraction(1)})
+        return cls({(): Fraction(x)})
 
     @classmethod
     def power(cls, base, k: int) -> Count:
@@ -194,7 +197,7 @@ class Count:
 
     def value(self):
         """A plain int when every term has at most SMALL_BITS bits, else a BigCount."""
-        logs = [sum(e * p.bit_length() for p, e in k) + abs(v.numerator).bit_length()
+        logs = [sum(e * math.log2(p) for p, e in k) + abs(v.numerator).bit_length()
                 for k, v in self.terms.items()]
         if not logs:
             return 0

@@ -23,7 +23,7 @@ from __future__ import annotations
 
 from fractions import Fraction
 
-from flint import arb, fmpq
+from flint import arb, fmpq, fmpz
 
 from powerspec.algebra.kinds import MATRIX_RULES
 from powerspec.algebra.tree import Leaf, Node
@@ -32,6 +32,7 @@ from powerspec.numbers.counts import BigCount, power_product, to_arb
 from powerspec.numbers.hp import as_ball, real_part, working
 from powerspec.queries.invariants_context import Context
 from powerspec.queries.invariants_entries import bracket, certified, entry, unavailable
+from powerspec.queries.invariants_structure import Count, order_count
 from powerspec.tiers.invariant_blocks import plan_text
 from powerspec.tiers.invariant_bounds import log_mean_exp_bounds, log_sum_exp, mean_bounds
 
@@ -80,9 +81,12 @@ def _nonzero_laplacian(cx: Context):
         return None
     atoms, how = None, ""
     sp = cx.full("laplacian") if cx.exact_kind("laplacian") else None
+    how = "the exact Laplacian spectrum"
+    if sp is None and cx.exact_kind("laplacian"):
+        sp = cx.covering("laplacian")
+        how = "the extreme Laplacian atoms, which hold the whole spectrum"
     if sp is not None:
         atoms = [(b, m) for b, m in _atoms(sp)]
-        how = "the exact Laplacian spectrum"
     else:
         bs = cx.blocks()
         if bs is not None:
@@ -107,16 +111,22 @@ def _exact_tree_count(rest, order):
     if not all(isinstance(m, int) for _, m in rest):
         return None
     exps: dict[int, int] = {}
+    if any(int(b.p).bit_length() > 96 for b, _ in rest):
+        return None
     for b, m in rest:
         for p, e in _factor(int(b.p)).items():
             exps[p] = exps.get(p, 0) + e * m
     if isinstance(order, int):
+        if order.bit_length() > 96:
+            return None
         n_fac = _factor(order)
     else:
         if len(order.terms) != 1:
             return None
         (key, coeff), = order.terms.items()
         if coeff.denominator != 1:
+            return None
+        if coeff.numerator.bit_length() > 96:
             return None
         n_fac = _factor(coeff.numerator) if coeff != 1 else {}
         for p, e in key:
@@ -133,16 +143,10 @@ def _exact_tree_count(rest, order):
 
 
 def _factor(n: int) -> dict[int, int]:
-    out: dict[int, int] = {}
-    p = 2
-    while p * p <= n and p < 10**6:
-        while n % p == 0:
-            out[p] = out.get(p, 0) + 1
-            n //= p
-        p += 1 if p == 2 else 2
-    if n > 1:
-        out[n] = out.get(n, 0) + 1
-    return out
+    """Prime factorisation by FLINT (the exact count is only attempted for eigenvalues < 2^96)."""
+    if n.bit_length() > 96:
+        raise ValueError("eigenvalue too large to factor for an exact count")
+    return {int(p): int(e) for p, e in fmpz(n).factor()}
 
 
 def spanning_trees(cx: Context, alg_lower, lap_upper):
@@ -191,7 +195,8 @@ def _tree_bounds(cx: Context, alg_lower, lap_upper):
     how = ("bracket: the exact tr(L), tr(L^2) and the spectrum's ends (two-point Hermite bounds, "
            "Jensen)" + ("" if alg_lower is not None else "; no positive lower bound on alpha_2"))
     count = bracket(_exp_or_none(log_lo), _exp_or_none(log_hi), how) \
-        if log_hi is not None and log_hi.upper() < LOG_WRITABLE else \
+        if log_hi is not None and -LOG_WRITABLE < log_hi.upper() < LOG_WRITABLE \
+        and (log_lo is None or log_lo.lower() > -LOG_WRITABLE) else \
         unavailable("see log_spanning_trees (too large to write out)")
     return count, bracket(log_lo, log_hi, how + "; natural log"), bracket(kf_lo, kf_hi, how)
 
@@ -204,7 +209,7 @@ def _exp_or_none(x):
 
 
 def _from_log(log_v: arb, how: str) -> dict:
-    if log_v.upper() < LOG_WRITABLE:
+    if log_v.upper() < LOG_WRITABLE and log_v.lower() > -LOG_WRITABLE:
         with working():
             return certified(log_v.exp(), how)
     return unavailable("see the natural log (too large to write out at 160-bit precision)")
@@ -218,10 +223,14 @@ def energy(cx: Context, rho) -> dict:
     if not cx.fold_ok:
         return unavailable(cx.fold_reason())
     sp = cx.full("adjacency")
+    src = "the exact spectrum"
+    if sp is None:
+        sp = cx.covering("adjacency")
+        src = "the extreme atoms, which hold the whole spectrum"
     if sp is not None:
         with working():
             e = sum((to_arb(m) * abs(_ball(b)) for b, m in _atoms(sp)), arb(0))
-        return certified(e, "certified: sum of |eigenvalue| over the exact spectrum")
+        return certified(e, f"certified: sum of |eigenvalue| over {src}")
     e = cx._get(("direct_energy",), lambda: _direct_energy(cx, cx.node))
     if e is not None:
         return certified(e, "certified: the energy is multiplicative over direct products (|lambda mu|)")
@@ -292,9 +301,10 @@ def _tail(cx: Context, kind: str, scale: arb, top: bool):
         return None, None
     atoms = _atoms(near)
     known = atoms if not top else atoms[::-1]
-    rest = cx.order
+    rest_c = order_count(cx.node)
     for _, m in known:
-        rest = rest - m
+        rest_c = rest_c - Count.of(m)
+    rest = rest_c.value()
     with working():
         terms = [_log_count(m) + scale * _ball(b) for b, m in known]
         if rest == 0:
@@ -380,7 +390,7 @@ def _exp_bounds(cx: Context, kind: str, scale: arb, name: str, lap_upper, alg_lo
 
 
 def _bracket_exp(lo, hi, how):
-    if hi is not None and hi < LOG_WRITABLE and (lo is None or lo > -LOG_WRITABLE):
+    if hi is not None and -LOG_WRITABLE < hi < LOG_WRITABLE and (lo is None or lo > -LOG_WRITABLE):
         with working():
             return bracket(lo.exp() if lo is not None else None, hi.exp(), how)
     return unavailable("see the natural log (too large to write out at 160-bit precision)")

@@ -9,7 +9,7 @@ strings in JSON, like every integer of more than 4000 digits).
 from __future__ import annotations
 
 from powerspec.algebra.moment_domains import EXACT
-from powerspec.algebra.moment_factored import factored
+from powerspec.algebra.moment_factored import factorable, factored
 from powerspec.algebra.moments import (
     MomentEngine,
     check_order,
@@ -48,7 +48,7 @@ def moment_answer(expr, order: int = 8, matrix: str = "adjacency", *, degrees: s
         else:
             vals = [plain(scale_by_order(node.order, v)) for v in tau]
     except SizeLimitError:
-        if per_vertex:
+        if per_vertex or not factorable(node, matrix):
             raise
         vals = [plain(v) for v in factored(node, matrix, order, eng.normalised,
                                            WordTraces(EXACT, order, degrees))]

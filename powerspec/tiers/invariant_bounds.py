@@ -80,7 +80,8 @@ def mean_bounds(name, mean: arb, var: arb, a: arb | None = None, b: arb | None =
 
     ``name`` is "log", "inv", "exp" or ("expneg", t).  ``a`` / ``b`` are
     balls whose lower / upper ends bound the support (None: unknown); "log"
-    and "inv" need a > 0.  Either bound may be None when nothing applies.
+    and "inv" assume X > 0 (their bounds at a need a > 0).  Either bound may
+    be None when nothing applies.
 
     >>> with working():
     ...     lo, hi = mean_bounds("inv", arb(2), arb(0))         # a point mass at 2
@@ -88,12 +89,18 @@ def mean_bounds(name, mean: arb, var: arb, a: arb | None = None, b: arb | None =
     (0.5, True)
     """
     f, sign3, convex = _fun(name)
+    increasing = name in ("log", "exp")
     with working():
         m = mean
         v = nonneg(var)
         lows, highs = [], []
         jensen = f(m)
         (lows if convex else highs).append(jensen)
+        # X in [a, b]: E f(X) lies between f(a) and f(b) for monotone f
+        if a is not None and (a.lower() > 0 or name not in ("log", "inv")):
+            (lows if increasing else highs).append(f(a.lower()))
+        if b is not None and (b.upper() > 0 or name not in ("log", "inv")):
+            (highs if increasing else lows).append(f(b.upper()))
         if a is not None:
             a0 = a.lower()
             if (name in ("log", "inv") and not a0 > 0) or not (m > a0):
@@ -172,6 +179,11 @@ def log_mean_exp_bounds(s: arb, mean: arb, var: arb, a: arb | None = None, b: ar
     with working():
         m, v = mean, nonneg(var)
         lows, highs = [s * m], []
+        # X in [a, b]: s X lies between s a and s b
+        for end, is_a in ((a, True), (b, False)):
+            if end is not None:
+                e = end.lower() if is_a else end.upper()
+                (lows if is_a == (s > 0) else highs).append(s * e)
         for end, at_a in ((a, True), (b, False)):
             if end is None:
                 continue
