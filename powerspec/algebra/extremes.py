@@ -40,7 +40,7 @@ from powerspec.algebra.tree import Leaf, Node, Product
 from powerspec.errors import InputError, NotExactError, SizeLimitError
 from powerspec.numbers.counts import BigCount, power_product
 from powerspec.numbers.hp import HP, as_acb, is_real, real_part, working
-from powerspec.spectra.spectrum import HPValues, Spectrum, mult_array
+from powerspec.spectra.spectrum import HPValues, Spectrum, exact_sort_key, mult_array
 
 MAX_STATES = 200_000
 """Most compositions one best-first search may visit."""
@@ -51,7 +51,8 @@ MAX_MULT_BITS = 1 << 23
 _U = 2.0**-53
 
 
-def extremes(engine: Engine, node: Node, kind: str, m: int, bottom: bool = False):
+def extremes(engine: Engine, node: Node, kind: str, m: int, bottom: bool = False,
+             max_states: int = MAX_STATES):
     """The m largest (smallest with ``bottom``) distinct eigenvalues, exact multiplicities.
 
     Returns ``(spectrum, method)``: a :class:`Spectrum` holding just those
@@ -84,15 +85,38 @@ def extremes(engine: Engine, node: Node, kind: str, m: int, bottom: bool = False
     shift, factor = post
     up = (factor > 0) != bottom if not isinstance(factor, arb) else (factor > 0) != bottom
     if comb.mode == "add":
-        found = _best_first_add(parts, m, up)
+        found = _best_first_add(parts, m, up, max_states)
         how = "best-first search over compositions (additive rule), values at 160-bit precision"
     else:
-        found = _best_first_mul(comb, parts, m, up, node.order)
+        found = _best_first_mul(comb, parts, m, up, node.order, max_states)
         how = ("best-first search over magnitude classes with exact sign or phase counts, values "
                "at 160-bit precision")
     if not (shift == 0 and factor == 1):
         found = _affine_hp(found, shift, factor)
     return select(found, m, bottom), how
+
+
+def search_size(engine: Engine, node: Node, kind: str) -> int | None:
+    """Number of compositions the extremes search could visit in all (over operand atoms for
+    additive rules, over magnitude classes for multiplicative ones), or None when it does not
+    apply.  Cheap: operand spectra only."""
+    if isinstance(node, Leaf):
+        return None
+    try:
+        comb, use, _ = engine.linear_form(node, kind)
+        if comb.mode not in ("add", "mul"):
+            return None
+        parts = _flat_parts(engine, node, use, comb)
+        shift, factor = comb.to_s()
+        total = 1
+        for vals, ms, k in parts:
+            r = len(vals) if comb.mode == "add" else len(_classes(vals, ms, shift, factor)[0])
+            total *= math.comb(k + r - 1, r - 1) if r > 1 else 1
+            if total > 10**18:
+                return total
+        return total
+    except (NotExactError, SizeLimitError):
+        return None
 
 
 def _flat_parts(engine: Engine, node: Product, use: str, comb: Combination):
@@ -213,40 +237,52 @@ def _successors(state: tuple, offsets):
                 yield tuple(nxt)
 
 
-def _best_first_add(parts, m: int, up: bool) -> Spectrum:
-    """Atoms of the additive combination with the m largest (up) or smallest real parts."""
+def _best_first_add(parts, m: int, up: bool, max_states: int = MAX_STATES) -> Spectrum:
+    """Atoms of the additive combination with the m largest (up) or smallest real parts.
+
+    Keys are taken relative to the start state (all copies on each operand's top
+    eigenvalue): key = sum over moved copies of (lambda_i - lambda_top), so their float
+    error follows the few moved copies, not k.  Each pushed state's key error is
+    bounded and the running maximum ``eps`` covers every heap state; since moving a
+    copy down never raises the value, every unexplored state lies below
+    (heap top key + eps) relative to the start value.
+    """
     sign = 1 if up else -1
     ordered = []
     with working():
         for vals, ms, k in parts:
-            keyed = sorted(zip(vals, ms, strict=True),
-                           key=lambda t: -sign * float(as_acb(t[0]).real.mid()))
+            keyed = sorted(zip(vals, ms, strict=True), key=lambda t: exact_sort_key(t[0]),
+                           reverse=up)  # exact order: moving a copy down never raises the value
             ordered.append(([v for v, _ in keyed], [mm for _, mm in keyed], k))
     offsets = np.cumsum([0] + [len(v) for v, _, _ in ordered])
     flat = [v for vals, _, _ in ordered for v in vals]
+    tops = np.repeat(offsets[:-1], np.diff(offsets))
     with working():
-        re = np.array([sign * float(as_acb(v).real.mid()) for v in flat])
-        rad = np.array([float(as_acb(v).real.rad()) + abs(float(as_acb(v).real.mid())) * _U
-                        for v in flat])
-    ks = [k for _, _, k in ordered]
-    eps = sum(k * (float(np.max(np.abs(re[offsets[j]:offsets[j + 1]]))) * 8 * _U
-                   + float(np.max(rad[offsets[j]:offsets[j + 1]])))
-              for j, k in enumerate(ks)) * 1.01 + 1e-300
+        delta_hp = [as_acb(flat[i]).real - as_acb(flat[t]).real for i, t in enumerate(tops)]
+        delta = np.array([sign * float(d.mid()) for d in delta_hp])
+        derr = np.array([float(d.rad()) + abs(float(d.mid())) * 4 * _U for d in delta_hp]) * 1.01
+        base = fmpq(0)
+        for vals, _, k in ordered:
+            base = base + as_acb(vals[0]).real * k
 
-    def key(state) -> float:
-        return float(np.dot(np.array(state, dtype=float), re))
+    def key(state) -> tuple[float, float]:
+        c = np.array(state, dtype=float)
+        c[offsets[:-1]] = 0.0  # the top atom's copies are in the base value
+        return float(np.dot(c, delta)), float(np.dot(c, derr)) * (1 + 8 * _U) + 1e-300
 
     start = _start(ordered)
-    heap = [(-key(start), start)]
+    heap = [(-0.0, start)]
     seen = {start}
+    eps = 0.0
     found_v: list[HP] = []
     found_m: list = []
     visited = 0
+    next_check = m
     while heap:
         neg, state = heapq.heappop(heap)
         visited += 1
-        if visited > MAX_STATES:
-            raise SizeLimitError(f"the extremes search visited more than {MAX_STATES} compositions; "
+        if visited > max_states:
+            raise SizeLimitError(f"the extremes search visited more than {max_states} compositions; "
                                  "ask for fewer eigenvalues")
         with working():
             val = fmpq(0)
@@ -258,25 +294,31 @@ def _best_first_add(parts, m: int, up: bool) -> Spectrum:
         for nxt in _successors(state, offsets):
             if nxt not in seen:
                 seen.add(nxt)
-                heapq.heappush(heap, (-key(nxt), nxt))
-        if len(found_v) >= m and (not heap or _enough(found_v, found_m, m, sign,
-                                                         -heap[0][0] + eps)):
+                kv, ke = key(nxt)
+                eps = max(eps, ke)
+                heapq.heappush(heap, (-kv, nxt))
+        if not heap:
             break
+        if len(found_v) >= next_check:
+            if _enough(found_v, found_m, m, sign, base, -heap[0][0] + eps):
+                break
+            next_check = len(found_v) + max(1, len(found_v) // 8)
     return Spectrum(HPValues(found_v), mult_array(found_m))
 
 
-def _enough(vals: list[HP], mults: list, m: int, sign: int, bound: float) -> bool:
-    """True when m merged atoms have sign * (real part) certainly above ``bound``."""
-    sp = Spectrum(HPValues(list(vals)), mult_array(mults))
+def _enough(vals: list[HP], mults: list, m: int, sign: int, base, rel_bound: float) -> bool:
+    """True when m merged atoms have sign * (Re(v) - base) certainly above ``rel_bound``."""
     with working():
-        b = arb(fmpq(*float(bound).as_integer_ratio()))
-        above = 0
-        for x in sp.values.items:
+        b = arb(fmpq(*float(rel_bound).as_integer_ratio()))
+        keep = []
+        for x, mm in zip(vals, mults, strict=True):
             r = real_part(x)
             r = arb(r) if isinstance(r, fmpq) else r
-            if (r * sign) > b:
-                above += 1
-        return above >= m
+            if (r - base) * sign > b:
+                keep.append((x, mm))
+    if len(keep) < m:
+        return False
+    return len(Spectrum(HPValues([x for x, _ in keep]), mult_array([mm for _, mm in keep]))) >= m
 
 
 # ---------------------------------------------------------- multiplicative rule
@@ -318,7 +360,7 @@ def _classes(vals: list[HP], mults: list[int], shift: Fraction, factor: Fraction
                                     "precision; the extremes search needs its sign")
             mag = abs(s) if real else abs(as_acb(s))
             items.append((mag, s, mm))
-        items.sort(key=lambda t: -float(arb(t[0]).mid()))
+        items.sort(key=lambda t: exact_sort_key(t[0]), reverse=True)
         groups: list[list] = []
         for mag, s, mm in items:
             g = groups[-1] if groups else None
@@ -345,7 +387,8 @@ def _overlaps(a: HP, b: HP) -> bool:
     return arb(a).overlaps(arb(b))
 
 
-def _best_first_mul(comb: Combination, parts, m: int, up: bool, order) -> Spectrum:
+def _best_first_mul(comb: Combination, parts, m: int, up: bool, order,
+                    max_states: int = MAX_STATES) -> Spectrum:
     """Atoms of a multiplicative combination with the m largest (up) or smallest s-values."""
     shift, factor = comb.to_s()
     ops = []
@@ -360,26 +403,39 @@ def _best_first_mul(comb: Combination, parts, m: int, up: bool, order) -> Spectr
     # s = shift + factor x: the wanted end of x is the wanted end of s when factor > 0
     s_up = up if factor > 0 else not up
     sigma = 1 if s_up else -1
-    offsets = np.cumsum([0] + [len(c) for c, _ in ops])
-    logs = np.array([c.log for cls, _ in ops for c in cls])
-    eps = sum(k * max((c.log_err for c in cls), default=0.0) for cls, k in ops) * 1.01 + 1e-12
     found_s: list[HP] = []
     found_m: list = []
     if any(len(cls) == 0 for cls, _ in ops):
         return _finish_mul([], [], order, comb)  # every product has a zero factor
+    offsets = np.cumsum([0] + [len(c) for c, _ in ops])
+    # keys relative to the start (all copies in each operand's largest class): their float
+    # error follows the few moved copies, not k
+    with working():
+        lg = [(arb(c.mag) if isinstance(c.mag, fmpq) else c.mag).log() for cls, _ in ops for c in cls]
+        tops = np.repeat(offsets[:-1], np.diff(offsets))
+        dl = [lg[i] - lg[t] for i, t in enumerate(tops)]
+        dlog = np.array([float(d.mid()) for d in dl])
+        derr = np.array([float(d.rad()) + abs(float(d.mid())) * 4 * _U for d in dl]) * 1.01
+        base_log = arb(0)
+        for j, (_cls, k) in enumerate(ops):
+            base_log = base_log + lg[offsets[j]] * k
+
+    def key(state) -> tuple[float, float]:
+        c = np.array(state, dtype=float)
+        c[offsets[:-1]] = 0.0
+        return float(np.dot(c, dlog)), float(np.dot(c, derr)) * (1 + 8 * _U) + 1e-300
+
     start = tuple(x for cls, k in ops for x in ([k] + [0] * (len(cls) - 1)))
-
-    def key(state) -> float:
-        return float(np.dot(np.array(state, dtype=float), logs))
-
-    heap = [(-key(start), start)]
+    heap = [(-0.0, start)]
     seen = {start}
+    eps = 0.0
     visited = 0
+    next_check = m
     while heap:
         neg, state = heapq.heappop(heap)
         visited += 1
-        if visited > MAX_STATES:
-            raise SizeLimitError(f"the extremes search visited more than {MAX_STATES} magnitude "
+        if visited > max_states:
+            raise SizeLimitError(f"the extremes search visited more than {max_states} magnitude "
                                  "combinations; ask for fewer eigenvalues")
         for v, mm in _class_values(state, ops, offsets, real):
             found_s.append(v)
@@ -387,28 +443,33 @@ def _best_first_mul(comb: Combination, parts, m: int, up: bool, order) -> Spectr
         for nxt in _successors(state, offsets):
             if nxt not in seen:
                 seen.add(nxt)
-                heapq.heappush(heap, (-key(nxt), nxt))
-        if heap and _enough_mul(found_s, found_m, m, sigma, -heap[0][0] + eps):
-            return _finish_mul(found_s, found_m, None, comb)
+                kv, ke = key(nxt)
+                eps = max(eps, ke)
+                heapq.heappush(heap, (-kv, nxt))
+        if heap and len(found_s) >= next_check:
+            if _enough_mul(found_s, found_m, m, sigma, base_log, -heap[0][0] + eps):
+                return _finish_mul(found_s, found_m, None, comb)
+            next_check = len(found_s) + max(1, len(found_s) // 8)
     # every non-zero value is known; the rest of the spectrum sits at s = 0
     zero_count = order - zero_free if zero_free else order
     return _finish_mul(found_s, found_m, zero_count, comb)
 
 
-def _enough_mul(vals: list[HP], mults: list, m: int, sigma: int, log_bound: float) -> bool:
-    """True when m merged s-atoms have sigma * Re(s) certainly above exp(log_bound)."""
+def _enough_mul(vals: list[HP], mults: list, m: int, sigma: int, base_log, rel: float) -> bool:
+    """True when m merged s-atoms have sigma * Re(s) certainly above exp(base_log + rel)."""
     if len(vals) < m:
         return False
-    sp = Spectrum(HPValues(list(vals)), mult_array(mults))
     with working():
-        b = arb(fmpq(*float(log_bound).as_integer_ratio())).exp()
-        above = 0
-        for x in sp.values.items:
+        b = (base_log + arb(fmpq(*float(rel).as_integer_ratio()))).exp()
+        keep = []
+        for x, mm in zip(vals, mults, strict=True):
             r = real_part(x)
             r = arb(r) if isinstance(r, fmpq) else r
             if r * sigma > b:
-                above += 1
-        return above >= m
+                keep.append((x, mm))
+    if len(keep) < m:
+        return False
+    return len(Spectrum(HPValues([x for x, _ in keep]), mult_array([mm for _, mm in keep]))) >= m
 
 
 def _class_values(state: tuple, ops, offsets, real: bool):

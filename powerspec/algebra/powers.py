@@ -32,6 +32,7 @@ from powerspec.algebra.rules import apply, pairs, self_power, unify
 from powerspec.errors import SizeLimitError
 from powerspec.numbers.balls import Balls
 from powerspec.numbers.convert import rationals_to_balls, to_balls
+from powerspec.numbers.counts import EXPAND_BITS, bit_length, power_product
 from powerspec.numbers.hp import HP, working
 from powerspec.numbers.rationals import Rationals
 from powerspec.spectra.spectrum import Spectrum, mult_array
@@ -112,12 +113,17 @@ def power(s: Spectrum, k: int, comb: Combination, budget: int, limit: int) -> Sp
     if k == 1:
         return s
     if comb.mode == "zero":
-        return Spectrum.from_values([0.0], [s.order**k])
+        return Spectrum.from_values([0.0], [power_product([(s.order, k)])])
     if comb.mode is None:
         return fold([s] * k, comb, budget, limit)
     if len(s) == 1:
         v = self_power(comb, _vec(s), np.array([k]))
-        return Spectrum(v, mult_array([_pow_count(s.mult[0], k)]), order=s.order**k)
+        m = power_product([(s.mult[0], k)])  # exact, kept factored when astronomically large
+        return Spectrum(v, mult_array([m]), order=m)
+    if bit_length(s.order) * k > EXPAND_BITS:
+        raise SizeLimitError(
+            f"the exact multiplicities of this power would have about {bit_length(s.order) * k} "
+            "bits each; the full spectrum is answered only through the extremes search")
     if composition_count(k, len(s)) <= budget:
         return _compositions(s, k, comb)
     return _squaring(s, k, comb, budget, limit)
@@ -142,10 +148,6 @@ def hp_self_power(comb: Combination, x: HP, c: int) -> HP:
         if a == 0:
             return (bq * x) ** c / bq if c else 1 / bq
         return ((1 + bq * x) ** c - 1) / bq
-
-
-def _pow_count(m, k: int):
-    return int(m) ** k
 
 
 def fold(parts: list[Spectrum], comb: Combination, budget: int, limit: int) -> Spectrum:

@@ -11,12 +11,12 @@ from __future__ import annotations
 import math
 
 from powerspec.algebra.engine import BOUND_CAP, DEFAULT_LIMIT, Engine, Node
-from powerspec.algebra.extremes import extremes, select
+from powerspec.algebra.extremes import extremes, search_size, select
 from powerspec.algebra.kinds import MATRIX_KINDS
 from powerspec.algebra.moments import MomentEngine
 from powerspec.answers.answer import Answer, _text_int
 from powerspec.errors import InputError, NotExactError, SizeLimitError
-from powerspec.numbers.counts import bit_length
+from powerspec.numbers.counts import EXPAND_BITS, bit_length
 from powerspec.queries import distribution
 from powerspec.queries.common import matrix_label, resolve
 from powerspec.tiers.exact import exact_spectrum
@@ -51,6 +51,14 @@ def spectrum(expr, matrix: str = "adjacency", *, limit: int | None = None,
             f"exact multiplicities (up to {bit_length(node.order)} bits each) would need more "
             "than 2 GiB; ask for the extremes with 'top'")
     try:
+        if bit_length(node.order) > EXPAND_BITS:
+            # astronomically many vertices: when few distinct eigenvalues exist, the extremes
+            # search lists them all with closed-form counts (e.g. +-1, 2^(k-1) times each)
+            whole = _all_by_extremes(eng, node, matrix)
+            if whole is not None:
+                return Answer("spectrum", node.label(), matrix_label(matrix, node, degrees),
+                              node.order, "exact: " + whole[1] + " (every distinct eigenvalue)",
+                              atoms=whole[0], inputs={"limit": eng.limit, "degrees": degrees})
         sp, method = exact_spectrum(eng, node, matrix, workers=workers, scheduler=scheduler,
                                     progress=progress)
     except SizeLimitError as exc:
@@ -63,6 +71,22 @@ def spectrum(expr, matrix: str = "adjacency", *, limit: int | None = None,
         method += f" (merged {bound} candidate values to {len(sp)})"
     return Answer("spectrum", node.label(), matrix_label(matrix, node, degrees), node.order,
                   method, atoms=sp, inputs={"limit": eng.limit, "degrees": degrees})
+
+
+def _all_by_extremes(eng: Engine, node: Node, matrix: str):
+    """(spectrum, method) listing every distinct eigenvalue via the extremes search, or None
+    when there are more than the limit (or the search cannot run)."""
+    cap = min(eng.limit, 10_000)
+    size = search_size(eng, node, matrix)
+    if size is None or size > 4 * cap:
+        return None
+    try:
+        sp, how = extremes(eng, node, matrix, cap + 1, max_states=4 * cap)
+    except (SizeLimitError, NotExactError):
+        return None
+    if len(sp) > cap or sp.order != node.order:
+        return None
+    return sp, how
 
 
 def top(expr, m: int = 5, matrix: str = "adjacency", *, bottom: bool = False,

@@ -95,33 +95,45 @@ def _sum(mult: np.ndarray):
 
 
 def _real_key(r) -> tuple:
-    """An exact sort key of a real midpoint of any size: (sign, signed exponent, signed mantissa)."""
+    """An exact sort key of a real midpoint of any size (exact rational or arb midpoint).
+
+    (sign, sign * binary exponent E, sign * the mantissa scaled to a 256-bit integer, sign *
+    the exact remainder): tuples compare exactly, so atoms closer than a double can resolve
+    still sort in their true order.
+    """
     if isinstance(r, fmpq):
         num, den = int(r.p), int(r.q)
         if num == 0:
-            return (0, 0, 0.0)
+            return (0, 0, 0, 0)
         n = abs(num)
         e = n.bit_length() - den.bit_length()
-        # normalise to 2**(e-1) <= |x| < 2**e, as for the midpoints of balls below
         if Fraction(n, den) >= Fraction(2) ** e:
-            e += 1
-        frac = float(Fraction(n, den) / Fraction(2) ** e)
+            e += 1  # now 2**(e-1) <= |x| < 2**e
+        shift = 256 - e
+        top = (n << shift) // den if shift >= 0 else n // (den << -shift)
+        rem = Fraction(n << shift, den) - top if shift >= 0 else Fraction(n, den << -shift) - top
     else:
         m, ex = r.mid().man_exp()
         num = int(m)
         if num == 0:
-            return (0, 0, 0.0)
-        e = int(ex) + num.bit_length()
-        frac = abs(num) / 2.0 ** num.bit_length() if num.bit_length() < 1000 else \
-            float(abs(num) >> (num.bit_length() - 60)) / 2.0**60
+            return (0, 0, 0, 0)
+        n = abs(num)
+        e = int(ex) + n.bit_length()
+        top = n << (256 - n.bit_length()) if n.bit_length() <= 256 else n >> (n.bit_length() - 256)
+        rem = 0
     sg = 1 if num > 0 else -1
-    return (sg, sg * e, sg * frac)
+    return (sg, sg * e, sg * top, sg * rem)
+
+
+def exact_sort_key(x: HP) -> tuple:
+    """An exact sort key (real part, then imaginary part) of an exact or high-precision value."""
+    return _sort_key_hp(x)
 
 
 def _sort_key_hp(x: HP) -> tuple:
     if isinstance(x, acb):
         return _real_key(x.real) + _real_key(x.imag)
-    return _real_key(x) + (0, 0, 0.0)
+    return _real_key(x) + (0, 0, 0, 0)
 
 
 def _overlap(x: HP, y: HP) -> bool:
@@ -470,4 +482,4 @@ def concat(spectra: Sequence[Spectrum]) -> Spectrum:
     return Spectrum(Balls.concat([s.as_balls() for s in spectra]), mult)
 
 
-__all__ = ["HPValues", "Spectrum", "Values", "concat", "mult_array"]
+__all__ = ["HPValues", "Spectrum", "Values", "concat", "exact_sort_key", "mult_array"]
