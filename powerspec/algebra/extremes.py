@@ -38,6 +38,7 @@ from powerspec.algebra.kinds import DIRECT, MATRIX_RULES, Combination
 from powerspec.algebra.powers import combine, power
 from powerspec.algebra.tree import Leaf, Node, Product
 from powerspec.errors import InputError, NotExactError, SizeLimitError
+from powerspec.factors.factor import ENDS_MIN
 from powerspec.numbers.counts import BigCount, power_product
 from powerspec.numbers.hp import HP, as_acb, is_real, real_part, working
 from powerspec.spectra.spectrum import HPValues, Spectrum, exact_sort_key, mult_array
@@ -81,7 +82,7 @@ def extremes(engine: Engine, node: Node, kind: str, m: int, bottom: bool = False
                 f"{node.label()}: the extremes of a non-associative mix need the full spectrum, which "
                 f"is too large ({exc}); ask for a smaller power") from exc
         return select(sp, m, bottom), "exact enumeration of the full spectrum"
-    parts = _flat_parts(engine, node, use, comb)
+    parts = _flat_parts(engine, node, use, comb, m)
     shift, factor = post
     up = (factor > 0) != bottom if not isinstance(factor, arb) else (factor > 0) != bottom
     if comb.mode == "add":
@@ -119,7 +120,8 @@ def search_size(engine: Engine, node: Node, kind: str) -> int | None:
         return None
 
 
-def _flat_parts(engine: Engine, node: Product, use: str, comb: Combination):
+def _flat_parts(engine: Engine, node: Product, use: str, comb: Combination,
+                ends_m: int | None = None):
     """[(atoms at high precision, multiplicities, copies)]; nested same-rule products flattened."""
     out = []
 
@@ -127,6 +129,14 @@ def _flat_parts(engine: Engine, node: Product, use: str, comb: Combination):
         for child, k in n.operands:
             if isinstance(child, Product) and MATRIX_RULES[use](child.comb) == comb:
                 collect(child, mult * k)
+            elif (comb.mode == "add" and ends_m is not None and isinstance(child, Leaf)
+                  and child.factor.n > ENDS_MIN
+                  and (vals := child.factor.ends(use, ends_m, engine.direction)) is not None):
+                # Cartesian-type rule: a composition with a copy on an operand's (m+1)-th
+                # largest value is beaten by m distinct ones, so the ends suffice
+                sp = Spectrum.from_hp([v for v, _ in vals], [mm for _, mm in vals])
+                out.append((list(sp.hp) if sp.hp is not None else sp.balls(),
+                            [int(x) for x in sp.mult.tolist()], mult * k))
             else:
                 try:
                     sp = engine.spectrum(child, use)

@@ -52,7 +52,10 @@ from powerspec.factors.matrix import (
 )
 from powerspec.spectra.spectrum import Spectrum
 
-__all__ = ["DIRECTIONS", "MATRIX_KINDS", "Factor", "from_matrix"]
+__all__ = ["DIRECTIONS", "ENDS_MIN", "MATRIX_KINDS", "Factor", "from_matrix"]
+
+ENDS_MIN = 20_000
+"""Factors above this order give only the ends of their spectrum to the extremes search."""
 
 
 # ---------------------------------------------------------------------------- Factor
@@ -302,6 +305,30 @@ class Factor:
                     if mapped is not None:
                         return mapped
         return numeric_eigenvalues(self._adj, kind, self.exact_degrees(direction), not self.directed)
+
+    def ends(self, kind: str, m: int, direction: str = "out") -> list | None:
+        """The m largest and m smallest distinct eigenvalues, certified, or None.
+
+        Cheap for very large family members whose closed form is monotone (paths,
+        cycles); the full certified spectrum for factors of at most ENDS_MIN vertices;
+        None otherwise (the caller then needs the full spectrum).
+        """
+        if self.n <= ENDS_MIN:
+            return self.certified(kind, direction)
+        cf = self._closed_form
+        if cf is None:
+            return None
+        self._check_kind_allowed(kind, self._effective_direction(kind, direction))
+        try:
+            vals = cf(kind, self._adj, ends_m=m)
+        except TypeError:
+            return None
+        if vals is None and kind != "adjacency":
+            d = self.regular_degree(direction)
+            adj = cf("adjacency", self._adj, ends_m=m)
+            if d is not None and adj is not None:
+                vals = regular_map(kind, d, adj)
+        return vals
 
     def spectrum(self, kind: str = "adjacency", direction: str = "out"):
         """The kind's certified spectrum as a :class:`~powerspec.spectra.spectrum.Spectrum`.

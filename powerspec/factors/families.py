@@ -30,6 +30,7 @@ from __future__ import annotations
 
 import io
 from collections.abc import Callable
+from fractions import Fraction
 from functools import cache
 from importlib import resources
 
@@ -88,10 +89,48 @@ def _unit(family: str, args: tuple[int, ...]) -> Callable[[str], list | None]:
     return lambda kind: unit_spectrum(family, args, kind, hp)
 
 
-def _form(unit: Callable[[str], list | None], kinds: tuple[str, ...]) -> Form:
-    """Closed form of w G + l I from the unit-weight spectra ``unit(kind)`` of G."""
+def _ends_unit(family: str, n: int, m: int) -> Callable[[str], list | None]:
+    """Only the m largest and m smallest distinct unit-weight eigenvalues of P_n or C_n.
 
-    def form(kind: str, adj: sp.csr_array) -> list | None:
+    The closed forms are monotone in their index j, so the ends are the first and last
+    indices (the same formulas as the full closed form, Brouwer & Haemers ch. 1 -- from
+    memory).  Used by the extremes search of Cartesian products of very large factors.
+    """
+    def unit(kind: str) -> list | None:
+        with working():
+            if family == "C":
+                if kind != "adjacency":
+                    return None
+                js = sorted(set(range(min(m + 1, n // 2 + 1)))
+                            | set(range(max(0, n // 2 - m), n // 2 + 1)))
+                return [(2 * hp.cos2pi(Fraction(j, n)), 1 if 2 * j in (0, n) else 2) for j in js]
+            if kind == "adjacency":
+                js = sorted(set(range(1, min(m, n) + 1)) | set(range(max(1, n - m + 1), n + 1)))
+                return [(2 * hp.cos2pi(Fraction(j, 2 * (n + 1))), 1) for j in js]
+            if kind in ("laplacian", "signless"):
+                js = sorted(set(range(min(m, n))) | set(range(max(0, n - m), n)))
+                return [(2 - 2 * hp.cos2pi(Fraction(j, 2 * n)), 1) for j in js]
+            return None
+    return unit
+
+
+def _form(unit: Callable[[str], list | None], kinds: tuple[str, ...],
+          ends: Callable[[int], Callable[[str], list | None]] | None = None) -> Form:
+    """Closed form of w G + l I from the unit-weight spectra ``unit(kind)`` of G.
+
+    With ``ends=m`` the form returns only the m largest and m smallest distinct
+    eigenvalues when the family can give them cheaply (else None).
+    """
+
+    def form(kind: str, adj: sp.csr_array, ends_m: int | None = None) -> list | None:
+        if ends_m is not None:
+            if ends is None:
+                return None
+            use = ends(ends_m)
+            if use(kind) is None:
+                return None
+        else:
+            use = unit
         wl = _uniform(adj)
         if wl is None or kind not in kinds:
             return None
@@ -99,14 +138,14 @@ def _form(unit: Callable[[str], list | None], kinds: tuple[str, ...]) -> Form:
         if w == 0:
             return None
         if kind == "adjacency":
-            return _affine(unit(kind), w, l_)
+            return _affine(use(kind), w, l_)
         if kind == "laplacian":
-            return _affine(unit(kind), w, fmpq(0))
+            return _affine(use(kind), w, fmpq(0))
         if kind == "signless":
-            return _affine(unit(kind), w, 2 * l_)
+            return _affine(use(kind), w, 2 * l_)
         if l_ != 0 or (kind == "normalized" and w < 0):
             return None
-        return unit(kind)  # transition and normalized do not see a common weight
+        return use(kind)  # transition and normalized do not see a common weight
 
     return form
 
@@ -139,7 +178,8 @@ def P(n: int) -> Factor:
     rows = np.concatenate([i, i + 1])
     cols = np.concatenate([i + 1, i])
     kinds = ("adjacency", "laplacian", "signless", "transition", "normalized")
-    return _family(rows, cols, n, f"P({n})", _form(_unit("P", (n,)), kinds))
+    return _family(rows, cols, n, f"P({n})",
+                   _form(_unit("P", (n,)), kinds, lambda m: _ends_unit("P", n, m)))
 
 
 def C(n: int) -> Factor:
@@ -154,7 +194,8 @@ def C(n: int) -> Factor:
     rows = np.concatenate([i, (i + 1) % n])
     cols = np.concatenate([(i + 1) % n, i])
 
-    return _family(rows, cols, n, f"C({n})", _form(_unit("C", (n,)), ("adjacency",)))
+    return _family(rows, cols, n, f"C({n})",
+                   _form(_unit("C", (n,)), ("adjacency",), lambda m: _ends_unit("C", n, m)))
 
 
 _ABSENT = object()
