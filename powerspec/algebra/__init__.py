@@ -1,4 +1,13 @@
-"""Stage 3 -- product algebra.
+"""Stage 3 -- product algebra: one expression tree, the rules, and the exact engine.
 
-Expression tree, grammar, product-kind tables, powers, extremes and moments.
+* :mod:`~powerspec.algebra.tree` -- ``Leaf`` / ``Product`` nodes (the only tree);
+* :mod:`~powerspec.algebra.kinds` -- product kinds as combination rules, the exactness table;
+* :mod:`~powerspec.algebra.rules` -- a rule applied to value vectors of any number domain;
+* :mod:`~powerspec.algebra.powers` -- pairwise products, k-th powers, left folds;
+* :mod:`~powerspec.algebra.engine` -- certified spectra of nodes for every matrix kind;
+* :mod:`~powerspec.algebra.extremes` -- certified extremes of any power;
+* :mod:`~powerspec.algebra.grammar`, ``grammar_syntax``, ``limits`` -- the expression language;
+* :mod:`~powerspec.algebra.build` -- the API's product functions;
+* ``moments``, ``moment_*``, ``words`` -- exact traces tr(M^p) of any product;
+* ``symbolic_*`` -- closed forms in a symbolic power k on the same tree and rules.
 """

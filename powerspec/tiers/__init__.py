@@ -1,5 +1,10 @@
-"""Stage 4 -- tiers.
+"""Stage 4 -- tiers: each answers with rigorous bounds.
 
-Each tier answers a query with rigorous bounds: exact, symmetry, explicit,
-bracket, law, moment bounds.
+* :mod:`~powerspec.tiers.exact` -- the whole spectrum by the cheapest exact route;
+* :mod:`~powerspec.tiers.explicit` -- small products built and solved with certified radii;
+* :mod:`~powerspec.tiers.symmetry` -- Schur--Weyl blocks for matrices that do not factor;
+* :mod:`~powerspec.tiers.bracket` -- certified FFT brackets of the eigenvalue distribution;
+* ``laws``, ``lawproduct``, ``lawsolve`` -- limit laws with Berry--Esseen and Chernoff bounds;
+* :mod:`~powerspec.tiers.momentbounds` -- Chebyshev--Markov--Stieltjes bounds from exact moments;
+* ``invariant_*`` -- invariants from certified blocks and bounds.
 """
