@@ -23,9 +23,6 @@ MATRIX_KINDS: tuple[str, ...] = ("adjacency", "laplacian", "signless", "normaliz
 DIRECTIONS: tuple[str, ...] = ("out", "in")
 """Degree directions: row sums ("out", the default) or column sums ("in")."""
 
-SNAP_TOLERANCE: float = 1e-12
-"""Relative tolerance for snapping eigenvalues to integers and for regularity tests."""
-
 
 # ----------------------------------------------------------------------------- helpers
 
@@ -78,43 +75,6 @@ def _canonical(mat: Any) -> sp.csr_array:
     out.eliminate_zeros()
     out.sort_indices()
     return out
-
-
-def _snap(values: Any) -> np.ndarray:
-    """Snap values near integers, make real if possible, sort by (real, imag).
-
-    A real or imaginary part within ``SNAP_TOLERANCE * max(1, max|values|)`` of an
-    integer becomes that integer exactly (``-0.0`` becomes ``0.0``).  A complex
-    array whose imaginary parts all snap to zero is returned as float64.
-    """
-    vals = np.asarray(values)
-    if vals.dtype.kind != "c":
-        vals = vals.astype(np.float64, copy=True)
-    else:
-        vals = vals.astype(np.complex128, copy=True)
-    if vals.size == 0:
-        return vals.astype(np.float64)
-    tol = SNAP_TOLERANCE * max(1.0, float(np.max(np.abs(vals))))
-
-    def snap_part(x: np.ndarray) -> np.ndarray:
-        x = np.array(x, dtype=np.float64, copy=True)
-        r = np.round(x)
-        near = np.abs(x - r) <= tol
-        x[near] = r[near] + 0.0
-        return x
-
-    if vals.dtype.kind == "c":
-        re_part = snap_part(vals.real)
-        im_part = snap_part(vals.imag)
-        if np.all(im_part == 0.0):
-            vals = re_part
-        else:
-            vals = np.empty(re_part.shape, dtype=np.complex128)
-            vals.real = re_part
-            vals.imag = im_part
-    else:
-        vals = snap_part(vals)
-    return np.sort(vals)
 
 
 def _format_number(c: float) -> str:
