@@ -29,7 +29,7 @@ from powerspec.algebra.moments import MomentEngine, fold_copies
 from powerspec.algebra.tree import Leaf, Node
 from powerspec.algebra.words import MAX_FOLD
 from powerspec.errors import PowerspecError
-from powerspec.numbers.counts import bit_length, power_product, to_arb
+from powerspec.numbers.counts import bit_length, to_arb
 from powerspec.numbers.hp import as_ball, real_part, working
 from powerspec.queries.invariants_structure import (
     Count,
@@ -63,10 +63,12 @@ def _flat(eng: Engine, node: Node, use: str, comb) -> list:
 def toward_zero_end(eng: Engine, node: Node, kind: str, bottom: bool):
     """The wanted end as a one-atom Spectrum when it is the fixed-sign product nearest zero, else None.
 
-    For a multiplicative rule s = c + f x with every operand's s-values of one
-    sign, the product's sign is fixed and its magnitude ranges over
-    [prod min|s|^k, prod max|s|^k]; the end nearest zero is prod min|s|^k with
-    multiplicity prod (multiplicity of that s)^k.  Exact or certified balls.
+    For a multiplicative rule s = c + f x whose operands' non-zero s-values each
+    have one sign, the non-zero products have a fixed sign and magnitudes in
+    [prod min|s|^k, prod max|s|^k].  The end nearest zero is then s = 0 exactly
+    when some operand has s = 0 (multiplicity: the order minus the non-zero
+    products, prod (n_j - z_j)^k_j), else prod min|s|^k with multiplicity
+    prod (multiplicity of that s)^k.  Exact or certified balls.
     """
     try:
         comb, use, (shift, factor) = eng.linear_form(node, kind)
@@ -75,16 +77,21 @@ def toward_zero_end(eng: Engine, node: Node, kind: str, bottom: bool):
     if comb.mode != "mul":
         return None
     c, f = (fmpq(x.numerator, x.denominator) for x in comb.to_s())
-    sign, mag, mult = 1, fmpq(1), 1
+    sign, mag, mult = 1, fmpq(1), Count.of(1)
+    nonzero, has_zero = Count.of(1), False
     with working():
         for sp, k in _flat(eng, node, use, comb):
             if not sp.is_real:
                 return None
             svals = [(c + f * real_part(b), m)
                      for b, m in zip(sp.balls(), sp.mult.tolist(), strict=True)]
+            zeros = sum(m for v, m in svals if isinstance(v, fmpq) and v == 0)
+            svals = [(v, m) for v, m in svals if not (isinstance(v, fmpq) and v == 0)]
             pos = all(v > 0 for v, _ in svals)
-            if not pos and not all(v < 0 for v, _ in svals):
+            if not svals or (not pos and not all(v < 0 for v, _ in svals)):
                 return None
+            has_zero = has_zero or zeros > 0
+            nonzero = nonzero * Count.power(int(sum(m for _, m in svals)), k)
             low = min(svals, key=lambda t: float(as_ball(abs(t[0])).mid()))
             if any(abs(v).overlaps(abs(low[0])) if not isinstance(v, fmpq) else False
                    for v, _ in svals if v is not low[0]):
@@ -92,18 +99,20 @@ def toward_zero_end(eng: Engine, node: Node, kind: str, bottom: bool):
             sign *= 1 if pos or k % 2 == 0 else -1
             mag = mag * abs(low[0]) ** k if isinstance(low[0], fmpq) and k < 4096 \
                 else as_ball(mag) * as_ball(abs(low[0])) ** k
-            mult = mult * power_product([(int(low[1]), k)])
+            mult = mult * Count.power(int(low[1]), k)
+        if has_zero:
+            mag, mult = fmpq(0), order_count(node) - nonzero
         s_end = sign * mag
         x_end = (s_end - c) / f
         sh, fa = (fmpq(v.numerator, v.denominator) if isinstance(v, Fraction) else v
                   for v in (shift, factor))
         value = sh + fa * x_end
         # which end of the kind's values this is: s toward zero, mapped by x = (s - c)/f, then factor
-        s_up = sign < 0  # toward zero is the top of s when the product is negative
+        s_up = sign < 0  # toward zero is the top of s when the non-zero products are negative
         x_up = s_up == (f > 0)
         v_up = x_up == (factor > 0)
     if v_up == (not bottom):
-        return Spectrum(HPValues([value]), mult_array([mult]), merged=True)
+        return Spectrum(HPValues([value]), mult_array([mult.value()]), merged=True)
     return None
 
 

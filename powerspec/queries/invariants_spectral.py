@@ -44,7 +44,9 @@ def _ball(x) -> arb:
 
 
 def _atoms(sp) -> list[tuple[object, object]]:
-    return list(zip(sp.balls(), [m for m in sp.mult.tolist()], strict=True))
+    """(ball, multiplicity) pairs, from the 160-bit atoms when the spectrum keeps them."""
+    balls = list(sp.hp) if getattr(sp, "hp", None) is not None else sp.balls()
+    return list(zip(balls, sp.mult.tolist(), strict=True))
 
 
 # ------------------------------------------------------------------ additive offsets
@@ -124,7 +126,11 @@ def spectral_radius(cx: Context):
     if not cx.fold_ok:
         why = cx.fold_reason()
         return unavailable(why), unavailable(why), None
-    if cx.undirected:
+    direct = cx._get(("direct_radius",), lambda: _direct_radius(cx, cx.node))
+    if direct is not None:
+        rho = direct
+        how = "certified: rho(A (x) B) = rho(A) rho(B) over the direct product (factor balls)"
+    elif cx.undirected:
         top, bot = cx.ext("adjacency", 1, False), cx.ext("adjacency", 1, True)
         if top is not None and bot is not None:
             with working():
@@ -153,6 +159,30 @@ def spectral_radius(cx: Context):
         log_e = certified(rho.log(), how + "; natural log") if rho > 0 else \
             unavailable("not defined: the spectral radius is 0")
     return certified(rho, how), log_e, rho
+
+
+def _direct_radius(cx: Context, node: Node):
+    """|b|^(K-1) prod rho_i^k_i for direct-type trees (mix(0, b) nodes), or None."""
+    if isinstance(node, Leaf):
+        with working():
+            vals = [abs(as_ball(b)) for b, _ in _atoms(cx.eng.spectrum(node, "adjacency"))]
+            out = vals[0]
+            for v in vals[1:]:
+                out = out.max(v)
+            return out
+    if node.comb.a != 0 or node.comb.b == 0:
+        return None
+    out, copies = arb(1), 0
+    for child, k in node.operands:
+        r = _direct_radius(cx, child)
+        if r is None:
+            return None
+        with working():
+            out *= r**k
+        copies += k
+    b = node.comb.b
+    with working():
+        return out * abs(arb(b.numerator) / b.denominator) ** (copies - 1)
 
 
 def epidemic_threshold(cx: Context, rho) -> dict:

@@ -52,7 +52,9 @@ def _ball(x) -> arb:
 
 
 def _atoms(sp):
-    return list(zip(sp.balls(), sp.mult.tolist(), strict=True))
+    """(ball, multiplicity) pairs, from the 160-bit atoms when the spectrum keeps them."""
+    balls = list(sp.hp) if getattr(sp, "hp", None) is not None else sp.balls()
+    return list(zip(balls, sp.mult.tolist(), strict=True))
 
 
 def _log_count(m) -> arb:
@@ -104,7 +106,7 @@ def _nonzero_laplacian(cx: Context):
     return rest, how
 
 
-def _exact_tree_count(rest, order):
+def _exact_tree_count(rest, node):
     """prod alpha^m / N as an exact integer (int or factored BigCount) when every alpha is an integer."""
     if not all(isinstance(b, fmpq) and b.q == 1 and b.p > 0 for b, _ in rest):
         return None
@@ -116,21 +118,15 @@ def _exact_tree_count(rest, order):
     for b, m in rest:
         for p, e in _factor(int(b.p)).items():
             exps[p] = exps.get(p, 0) + e * m
-    if isinstance(order, int):
-        if order.bit_length() > 96:
-            return None
-        n_fac = _factor(order)
-    else:
-        if len(order.terms) != 1:
-            return None
-        (key, coeff), = order.terms.items()
-        if coeff.denominator != 1:
-            return None
-        if coeff.numerator.bit_length() > 96:
-            return None
-        n_fac = _factor(coeff.numerator) if coeff != 1 else {}
-        for p, e in key:
-            n_fac[p] = n_fac.get(p, 0) + e
+    n_terms = order_count(node).terms
+    if len(n_terms) != 1:
+        return None
+    (key, coeff), = n_terms.items()
+    if coeff.denominator != 1 or coeff.numerator.bit_length() > 96:
+        return None
+    n_fac = _factor(coeff.numerator) if coeff != 1 else {}
+    for p, e in key:
+        n_fac[p] = n_fac.get(p, 0) + e
     for p, e in n_fac.items():
         exps[p] = exps.get(p, 0) - e
     if any(e < 0 for e in exps.values()):
@@ -168,7 +164,7 @@ def spanning_trees(cx: Context, alg_lower, lap_upper):
             log_t = s_log - cx.log_n
             kf = cx.n_arb * s_inv
         how = f"certified: matrix-tree theorem over {src}"
-        exact = _exact_tree_count(rest, cx.order)
+        exact = _exact_tree_count(rest, cx.node)
         count = entry(exact, exact, exact, "exact: matrix-tree theorem, prod of the non-zero Laplacian "
                       "eigenvalues / order (integers)") if exact is not None else _from_log(log_t, how)
         return (count, certified(log_t, how + "; natural log"),

@@ -32,6 +32,7 @@ from flint import arb
 from powerspec.algebra.tree import Leaf, Node
 from powerspec.numbers.hp import working
 from powerspec.tiers.symmetry import PowerOperand, SymmetryError, blocks, plan
+from powerspec.tiers.symmetry.reduction import find_involution
 
 MAX_WORK = 3 * 10**8
 """Largest plan work (sum of d^3 over blocks) the invariants query runs (a few seconds)."""
@@ -42,17 +43,36 @@ MAX_BLOCKS = 20_000
 MAX_COPIES = 2000
 """Powers beyond this many copies are refused before the plan enumerates partitions."""
 
-MAX_PARTITIONS = 100_000
-"""Largest number of partitions per operand the plan may enumerate."""
+MAX_ORDER = 64
+"""Largest factor order the invariants query hands to the symmetry tier."""
 
 
-def _partitions_at_most(k: int, n: int, cap: int) -> int:
-    """Partitions of k into at most n parts (= parts <= n), counted up to ``cap`` (then cap + 1)."""
+def _partition_counts(k: int, n: int, cap: int) -> list[int]:
+    """[p_n(0), ..., p_n(k)]: partitions of j into at most n parts, each capped at cap + 1."""
     ways = [1] + [0] * k
     for part in range(1, min(n, k) + 1):
         for j in range(part, k + 1):
             ways[j] = min(ways[j] + ways[j - part], cap + 1)
-    return ways[k]
+    return ways
+
+
+def block_count(adj: np.ndarray, deg: np.ndarray, k: int, cap: int = MAX_BLOCKS) -> int:
+    """The number of blocks the tier makes for G^k (capped at cap + 1), before any plan.
+
+    Without an involutive automorphism: partitions of k into at most n parts; with one
+    (n_+ and n_- vertices in its halves): sum_m p_(n+)(k - m) p_(n-)(m).
+
+    >>> p3 = np.array([[0., 1, 0], [1, 0, 1], [0, 1, 0]])
+    >>> block_count(p3, p3.sum(axis=1), 4)                    # the plan's 9 blocks for P(3)^4
+    9
+    """
+    n = adj.shape[0]
+    perm = find_involution(adj, deg)
+    if perm is None:
+        return _partition_counts(k, n, cap)[k]
+    pairs = sum(1 for i, p in enumerate(perm) if p > i)
+    plus, minus = _partition_counts(k, n - pairs, cap), _partition_counts(k, pairs, cap)
+    return min(sum(plus[k - m] * minus[m] for m in range(k + 1)), cap + 1)
 
 
 @dataclass
@@ -108,17 +128,24 @@ def operands(node: Node, direction: str = "out"):
     if a not in (0, 1) or (a == 0 and b == 0):
         return "the symmetry tier needs a = 0 or 1 (an associative product)"
     ops, deltas = [], []
+    total_blocks = 1
     for child, k in node.operands:
         if not isinstance(child, Leaf):
             return "the symmetry tier takes factors (not nested products) as operands"
         f = child.factor
         if k > MAX_COPIES:
             return f"{k} copies are beyond the symmetry tier's reach (at most {MAX_COPIES})"
-        if _partitions_at_most(k, f.n, MAX_PARTITIONS) > MAX_PARTITIONS:
-            return (f"{f.name}^{k} has more than {MAX_PARTITIONS} partitions of {k} into at most "
-                    f"{f.n} parts (one block each)")
+        if f.n > MAX_ORDER:
+            return f"{f.name} has {f.n} vertices; the symmetry tier takes factors up to {MAX_ORDER}"
         adj = f.adjacency.toarray()
         deg = f.degrees(direction)
+        count = block_count(adj, deg, k)
+        if count > MAX_BLOCKS:
+            return (f"{f.name}^{k} splits into more than {MAX_BLOCKS} blocks (counted from the "
+                    "partitions before any work)")
+        total_blocks = total_blocks * count
+        if total_blocks > MAX_BLOCKS:
+            return f"the product splits into more than {MAX_BLOCKS} blocks (counted before any work)"
         exact = f.exact_degrees(direction)
         delta = max((abs(Fraction(float(x)) - e) for x, e in zip(deg.tolist(), exact, strict=True)),
                     default=Fraction(0))
@@ -182,4 +209,4 @@ def plan_text(bs: BlockSpectrum) -> str:
             f"{bs.largest}")
 
 
-__all__ = ["BlockSpectrum", "MAX_WORK", "laplacian_blocks", "operands", "plan_text"]
+__all__ = ["BlockSpectrum", "MAX_WORK", "block_count", "laplacian_blocks", "operands", "plan_text"]
