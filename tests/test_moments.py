@@ -1,4 +1,5 @@
-"""Exact moments tr(M^p) against closed forms, exact rational traces and numpy traces of explicit builds."""
+"""Exact moments tr(M^p) against closed forms, exact rational traces and numpy traces of explicit
+builds."""
 
 from __future__ import annotations
 

@@ -20,6 +20,7 @@ from __future__ import annotations
 
 from fractions import Fraction
 
+import numpy as np
 from flint import arb, fmpq
 
 from powerspec.algebra.engine import Engine
@@ -43,7 +44,7 @@ from powerspec.spectra.spectrum import HPValues, Spectrum, mult_array
 from powerspec.tiers.invariant_blocks import laplacian_blocks
 from powerspec.tiers.symmetry import SymmetryError
 
-FULL_BITS = 1 << 27
+FULL_BITS = 1 << 25
 """Most bits of exact multiplicities (atoms x bits of the order) a full enumeration may hold."""
 
 MOMENT_ORDER = 4
@@ -126,9 +127,7 @@ class Context:
         self.t = t
         self.eng = Engine(limit, direction=direction)
         self.order = node.order
-        # the extremes enumerate whatever fits their engine: keep that enumeration small in bits
-        bits = max(bit_length(self.order), 1)
-        self.ext_eng = Engine(max(1, min(limit, FULL_BITS // (8 * bits))), direction=direction)
+        self._ext_eng = None
         with working():
             self.n_arb = to_arb(self.order)
             self.log_n = self.n_arb.log()
@@ -144,7 +143,8 @@ class Context:
     def _get(self, key, compute):
         if key not in self._cache:
             try:
-                self._cache[key] = compute()
+                with np.errstate(all="ignore"):  # balls carry the rigour; no float noise on stderr
+                    self._cache[key] = compute()
             except (PowerspecError, SymmetryError, ValueError, OverflowError, MemoryError) as exc:
                 self.reasons[str(key)] = str(exc).split("\n")[0][:160]
                 self._cache[key] = None
@@ -164,6 +164,19 @@ class Context:
                 f"the cap of {MAX_FOLD} (decided from the expression, before any work)")
 
     # ------------------------------------------------------------------ sources
+    @property
+    def ext_eng(self) -> Engine:
+        """The engine the extremes use: its atom limit keeps any full enumeration small in bits."""
+        if self._ext_eng is None:
+            bits = max(bit_length(self.order), 1)
+            try:
+                bits += self._value_bits(self.node, "adjacency")
+            except Exception:  # noqa: BLE001 - a size estimate only
+                bits += 64
+            self._ext_eng = Engine(max(1, min(self.limit, FULL_BITS // (8 * bits))),
+                                   direction=self.direction)
+        return self._ext_eng
+
     def exact_kind(self, kind: str) -> bool:
         """True when the kind's spectrum follows exactly from the factors' (rules or regularity)."""
         def check(node: Node) -> bool:

@@ -82,14 +82,14 @@ def _nonzero_laplacian(cx: Context):
     if comps != 1:
         return None
     atoms, how = None, ""
-    sp = cx.full("laplacian") if cx.exact_kind("laplacian") else None
+    sp = cx.full("laplacian")
     how = "the exact Laplacian spectrum"
     if sp is None and cx.exact_kind("laplacian"):
         sp = cx.covering("laplacian")
         how = "the extreme Laplacian atoms, which hold the whole spectrum"
     if sp is not None:
         atoms = [(b, m) for b, m in _atoms(sp)]
-    else:
+    elif not cx.exact_kind("laplacian"):
         bs = cx.blocks()
         if bs is not None:
             atoms = bs.balls(nonzero=False)

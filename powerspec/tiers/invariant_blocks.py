@@ -37,8 +37,8 @@ from powerspec.tiers.symmetry.reduction import find_involution
 MAX_WORK = 3 * 10**8
 """Largest plan work (sum of d^3 over blocks) the invariants query runs (a few seconds)."""
 
-MAX_BLOCKS = 20_000
-"""Largest number of blocks."""
+MAX_BLOCKS = 4_000
+"""Largest number of blocks (the plan costs about a millisecond per block)."""
 
 MAX_COPIES = 2000
 """Powers beyond this many copies are refused before the plan enumerates partitions."""
