@@ -7,12 +7,15 @@ import math
 import mpmath
 import numpy as np
 import pytest
+from flint import arb
 
 from powerspec.algebra.engine import Leaf, Product
 from powerspec.algebra.grammar import parse
 from powerspec.algebra.kinds import Combination
 from powerspec.errors import InputError
 from powerspec.factors import from_matrix
+from powerspec.numbers.hp import working
+from powerspec.tiers.invariant_bounds import log_mean_exp_bounds, log_sum_exp, mean_bounds
 from powerspec.tiers.momentbounds import cdf_bounds, cdf_bounds_from_moments, recurrence
 from tests.reference import fold
 
@@ -91,3 +94,43 @@ def test_recurrence_detects_atoms_and_bad_input():
         cdf_bounds([1, 0, -1], 0.0)  # a negative second moment is impossible
     with pytest.raises(InputError):
         cdf_bounds_from_moments(parse("cart(dicycle(3))"), "adjacency", 0.0)
+
+
+# ------------------------------------------------------------------ two-point bounds on E f(X)
+_FUNS = {"log": np.log, "inv": lambda x: 1 / x, "exp": np.exp}
+
+
+@pytest.mark.parametrize("trial", range(12))
+def test_two_point_mean_bounds_cover_random_measures(trial):
+    # source: E f(X) evaluated directly (numpy) for random discrete measures on [a, b]; the bounds
+    # from the mean, the variance and the ends must contain it
+    rng = np.random.default_rng(100 + trial)
+    x = rng.random(rng.integers(2, 9)) * 5 + 0.2
+    w = rng.random(x.size)
+    w /= w.sum()
+    m = float(np.dot(w, x))
+    v = float(np.dot(w, (x - m) ** 2))
+    with working():
+        a, b, mb, vb = arb(float(x.min())), arb(float(x.max())), arb(m), arb(v)
+        for name, f in _FUNS.items():
+            want = float(np.dot(w, f(x)))
+            lo, hi = mean_bounds(name, mb, vb, a, b)
+            assert float(lo) <= want * (1 + 1e-12) + 1e-12 and want * (1 - 1e-12) - 1e-12 <= float(hi)
+        t = 0.7
+        want = float(np.log(np.dot(w, np.exp(-t * x))))
+        lo, hi = log_mean_exp_bounds(arb(-t), mb, vb, a, b)
+        assert float(lo) <= want + 1e-12 and want - 1e-12 <= float(hi)
+
+
+def test_log_space_bounds_for_astronomical_values():
+    # source: mpmath at 60 digits: log E e^X for two atoms at +-10^6 with equal weights is
+    # 10^6 - log 2 (+ e^(-2*10^6) terms); the bounds stay finite and contain it
+    with mpmath.workdps(60):
+        want = float(mpmath.log((mpmath.e ** 10**6 + mpmath.e ** -(10**6)) / 2))
+    with working():
+        lo, hi = log_mean_exp_bounds(arb(1), arb(0), arb(10) ** 12, arb(-(10**6)), arb(10**6))
+        assert float(lo) <= want <= float(hi) and float(hi - lo) < 1e-6
+        x = arb(10) ** 20  # exact at 160 bits with room for 28 more digits
+        big = log_sum_exp([x, x - 1, -x])
+        # source: log(e^X + e^(X - 1) + e^-X) = X + log(1 + 1/e) up to e^(-2X), X = 10^20
+        assert abs(float(big - x) - math.log(1 + 1 / math.e)) < 1e-12
