@@ -120,7 +120,12 @@ def _distinct(balls: list[arb]) -> list[arb]:
 
 # ------------------------------------------------------------------ radius and gaps
 def spectral_radius(cx: Context):
-    """(entry, log entry, radius ball or None) of the adjacency spectral radius."""
+    """(entry, log entry, radius ball or None) of the adjacency spectral radius (certified).
+
+    >>> from powerspec.algebra.grammar import parse
+    >>> spectral_radius(Context(parse("direct(K(3)^2)"), 1000, "out", 1.0))[0]["value"]
+    4
+    """
     how = ""
     rho = None
     if not cx.fold_ok:
@@ -186,7 +191,13 @@ def _direct_radius(cx: Context, node: Node):
 
 
 def epidemic_threshold(cx: Context, rho) -> dict:
-    """1 / lambda_max of a non-negative adjacency matrix."""
+    """The entry of 1 / lambda_max of a non-negative adjacency matrix (certified ball).
+
+    >>> from powerspec.algebra.grammar import parse
+    >>> cx = Context(parse("K(5)"), 1000, "out", 1.0)
+    >>> epidemic_threshold(cx, spectral_radius(cx)[2])["value"]
+    1/4
+    """
     if rho is None:
         return unavailable("not available: the spectral radius is not available")
     if not cx.nonneg:
@@ -198,7 +209,14 @@ def epidemic_threshold(cx: Context, rho) -> dict:
 
 
 def spectral_gaps(cx: Context) -> tuple[dict, dict]:
-    """(lambda_1 - lambda_2 with multiplicity, lambda_1 - the next distinct eigenvalue)."""
+    """Entries of lambda_1 - lambda_2 (with multiplicity) and lambda_1 - the next distinct eigenvalue.
+
+    Exact 0 when the top eigenvalue is repeated; certified balls otherwise.
+
+    >>> from powerspec.algebra.grammar import parse
+    >>> [e["value"] for e in spectral_gaps(Context(parse("direct(P(3)^3)"), 1000, "out", 1.0))]
+    [0, [2.82842712474619 +/- 3.56e-15]]
+    """
     if not cx.undirected:
         return unavailable(UNDIRECTED_ONLY), unavailable(UNDIRECTED_ONLY)
     if not cx.fold_ok:
@@ -232,7 +250,12 @@ def spectral_gaps(cx: Context) -> tuple[dict, dict]:
 
 # ------------------------------------------------------------------ Laplacian ends
 def algebraic_connectivity(cx: Context):
-    """(entry, certified lower bound ball or None) of the second smallest Laplacian eigenvalue."""
+    """(entry, certified lower bound ball or None) of the second smallest Laplacian eigenvalue.
+
+    >>> from powerspec.algebra.grammar import parse
+    >>> algebraic_connectivity(Context(parse("cart(K(4)^100)"), 1000, "out", 1.0))[0]["value"]
+    4
+    """
     if not cx.undirected:
         return unavailable(UNDIRECTED_ONLY), None
     comps = cx.shape.c if cx.shape is not None else None
@@ -290,7 +313,12 @@ def _weyl_connectivity(cx: Context):
 
 
 def laplacian_radius(cx: Context):
-    """(entry, certified upper bound ball or None) of the largest Laplacian eigenvalue."""
+    """(entry, certified upper bound ball or None) of the largest Laplacian eigenvalue.
+
+    >>> from powerspec.algebra.grammar import parse
+    >>> laplacian_radius(Context(parse("cart(K(2)^50)"), 1000, "out", 1.0))[0]["value"]
+    100
+    """
     if not cx.undirected:
         return unavailable(UNDIRECTED_ONLY), None
     if not cx.fold_ok:
@@ -355,7 +383,12 @@ def _direct_nonzero(cx: Context, node: Node):
 
 
 def nullity(cx: Context) -> dict:
-    """The multiplicity of the adjacency eigenvalue 0 (exact, or a bracket when balls touch 0)."""
+    """The entry of the multiplicity of 0 in A: exact, or a bracket when balls touch 0.
+
+    >>> from powerspec.algebra.grammar import parse
+    >>> nullity(Context(parse("cart(K(2)^4)"), 1000, "out", 1.0))["value"]   # C(4, 2)
+    6
+    """
     sp = cx.full("adjacency")
     how = "exact: multiplicity of 0 in the exact spectrum"
     if sp is None:

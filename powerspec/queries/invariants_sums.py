@@ -146,7 +146,16 @@ def _factor(n: int) -> dict[int, int]:
 
 
 def spanning_trees(cx: Context, alg_lower, lap_upper):
-    """(count entry, log entry, Kirchhoff index entry) by the matrix-tree theorem."""
+    """(count entry, log entry, Kirchhoff index entry) by the matrix-tree theorem.
+
+    The count is exact when the Laplacian spectrum is (integers), the log a
+    certified ball or a rigorous bracket; ``alg_lower`` / ``lap_upper`` bound
+    the non-zero spectrum for the moment bracket.
+
+    >>> from powerspec.algebra.grammar import parse
+    >>> spanning_trees(Context(parse("K(6)"), 1000, "out", 1.0), None, None)[0]["value"]   # 6^4
+    1296
+    """
     if not cx.undirected or not cx.nonneg:
         why = "not defined here: needs an undirected graph with non-negative weights"
         return unavailable(why), unavailable(why), unavailable(why)
@@ -213,7 +222,12 @@ def _from_log(log_v: arb, how: str) -> dict:
 
 # ------------------------------------------------------------------ energy
 def energy(cx: Context, rho) -> dict:
-    """sum |lambda| of the adjacency matrix: exact sums, the direct-product closed form, or bounds."""
+    """The entry of sum |lambda| of A: exact sums, the direct-product closed form, or a bracket.
+
+    >>> from powerspec.algebra.grammar import parse
+    >>> energy(Context(parse("direct(K(2)^30)"), 10, "out", 1.0), None)["value"]   # 2^30 * 1
+    1073741824
+    """
     if not cx.undirected:
         return unavailable("not defined here: the energy sum |lambda| needs a real spectrum")
     if not cx.fold_ok:
@@ -314,7 +328,16 @@ def _tail(cx: Context, kind: str, scale: arb, top: bool):
 
 
 def exp_sum(cx: Context, kind: str, lap_upper=None, alg_lower=None):
-    """(entry, log entry) of sum e^lambda (adjacency) or sum e^(-t alpha) (laplacian)."""
+    """(entry, log entry) of sum e^lambda (adjacency) or sum e^(-t alpha) (laplacian).
+
+    Certified balls from closed forms or exact sums, else rigorous brackets;
+    the plain value only when its natural log is below LOG_WRITABLE.
+
+    >>> from powerspec.algebra.grammar import parse
+    >>> e, lg = exp_sum(Context(parse("cart(K(2)^3)"), 1000, "out", 1.0), "laplacian")
+    >>> round(float(lg["value"]), 12)       # 3 log(1 + e^-2): the heat trace of K_2 is 1 + e^-2t
+    0.380784033129
+    """
     name = "e^lambda" if kind == "adjacency" else f"e^(-{cx.t:g} alpha)"
     if not cx.undirected:
         why = f"not defined here: sum {name} is computed for undirected graphs only"
