@@ -1,107 +1,106 @@
-"""Plots of a product's spectrum: exact atoms or histogram against a reference law.
+"""``powerspec plot`` and ``powerspec.plot``: a spectrum drawn for a paper.
 
-Translation only: every number drawn comes from the planner (exact spectrum,
-extremes) or from exact moments; matplotlib (the optional ``plot`` extra) only
-draws.  The file is written atomically; its format follows the extension
-(png, pdf, svg).
+Translation only: :mod:`~powerspec.interfaces.plot_source` gathers the
+numbers from the queries (exact atoms, the certified CDF band of the frozen
+distribution, the reference law and its parameters, the lattice) and
+:mod:`~powerspec.interfaces.plot_views` draws one view (density, log
+magnitude, CDF, standardised).  matplotlib (the optional ``plot`` extra) is
+imported only here, when a plot is asked for.  The file is written
+atomically; its format follows the extension (png, pdf, svg).
+
+>>> import tempfile, os
+>>> path = os.path.join(tempfile.mkdtemp(), "q.svg")
+>>> plot("cart(K(2)^6)", path).startswith("wrote ")
+True
 """
 
 from __future__ import annotations
 
 import io
-import math
 from pathlib import Path
 
-import numpy as np
-
-from powerspec.errors import InputError, PowerspecError
+from powerspec.errors import InputError
 from powerspec.interfaces.files import write_atomic
-from powerspec.queries import planner
 
 FORMATS = ("png", "pdf", "svg")
+MAX_INCHES = 40.0
+DPI_RANGE = (20, 1200)
 
 
-def plot(expr, output: str | Path, matrix: str = "adjacency", *, bins: int = 60,
-         limit: int | None = None, degrees: str = "out") -> str:
-    """Draw the spectrum of ``expr`` into ``output``; returns a one-line summary.
-
-    Where the exact spectrum fits, its atoms (few) or a multiplicity-weighted
-    histogram (many) are drawn against the normal law with the same exact mean
-    and variance; otherwise the extreme eigenvalues are marked on that normal law,
-    whose mean and variance come from the exact moments tr(M), tr(M^2).
-    """
+def check_options(output, *, bins: int, size, dpi: int, xlim, ylim) -> str:
+    """The file format; InputError for a bad extension or option (before any work)."""
     fmt = Path(output).suffix.lower().lstrip(".")
     if fmt not in FORMATS:
         raise InputError(f"plot output must end in .png, .pdf or .svg, got {str(output)!r}")
-    if not isinstance(bins, int) or bins < 1:
+    if not isinstance(bins, int) or isinstance(bins, bool) or bins < 1:
         raise InputError(f"bins must be a positive integer, got {bins!r}")
-    try:
-        import matplotlib
+    w, h = size
+    if not (0.5 <= w <= MAX_INCHES and 0.5 <= h <= MAX_INCHES):
+        raise InputError(f"figure size must be between 0.5 and {MAX_INCHES:g} inches, got {w}x{h}")
+    if not (DPI_RANGE[0] <= dpi <= DPI_RANGE[1]):
+        raise InputError(f"dpi must be between {DPI_RANGE[0]} and {DPI_RANGE[1]}, got {dpi}")
+    for name, lim in (("xlim", xlim), ("ylim", ylim)):
+        if lim is not None and not lim[0] < lim[1]:
+            raise InputError(f"{name} needs A < B, got {lim[0]:g} {lim[1]:g}")
+    return fmt
 
-        matplotlib.use("Agg")
-        import matplotlib.pyplot as plt
+
+def _pyplot_views():
+    try:
+        from powerspec.interfaces import plot_views
     except ImportError as exc:
         raise InputError("plotting needs matplotlib: pip install 'powerspec[plot]'") from exc
-    node = planner.resolve(expr)
-    fig, ax = plt.subplots(figsize=(7, 4.2))
-    try:
-        try:
-            ans = planner.spectrum(node, matrix, limit=limit, degrees=degrees)
-            sp = ans.atoms
-            exact = True
-        except PowerspecError:
-            exact = False
-        if exact:
-            if not sp.is_real:
-                raise InputError("plots show real spectra; this one is complex")
-            vals = sp.values
-            w = np.array([float(m) for m in sp.mult.tolist()]) / float(sp.order)
-            mean = float(np.dot(w, vals))
-            var = float(np.dot(w, (vals - mean) ** 2))
-            if len(sp) <= 60:
-                ax.vlines(vals, 0, w, color="tab:blue", lw=2, label="exact atoms (share of vertices)")
-                ax.set_ylabel("share of eigenvalues")
-                scale = _atom_spacing(vals)
-            else:
-                ax.hist(vals, bins=bins, weights=w, density=True, color="tab:blue", alpha=0.6,
-                        label="exact spectrum (histogram)")
-                ax.set_ylabel("density")
-                scale = 1.0
-            summary = f"exact spectrum, {len(sp)} distinct eigenvalues"
-        else:
-            from powerspec.algebra.moments import trace_moments
+    return plot_views
 
-            # Per-vertex moments tr(M^p)/order are exact rationals of moderate size at any k.
-            mom = dict(trace_moments(node, matrix, 2, direction=degrees, per_vertex=True))
-            mean = float(mom[1])
-            var = float(mom[2] - mom[1] ** 2)
-            top = planner.top(node, 3, matrix, limit=limit, degrees=degrees).atoms
-            bot = planner.top(node, 3, matrix, bottom=True, limit=limit, degrees=degrees).atoms
-            for i, sp_ in enumerate((top, bot)):
-                ax.vlines([float(v) for v, _ in sp_.atoms()], 0, 1, transform=ax.get_xaxis_transform(),
-                          color="tab:red", lw=1, label="exact extreme eigenvalues" if i == 0 else None)
-            ax.set_ylabel("density")
-            scale = 1.0
-            summary = "exact moments and extremes (spectrum too large to enumerate)"
-        if var > 0:
-            sd = math.sqrt(var)
-            xs = np.linspace(mean - 4.5 * sd, mean + 4.5 * sd, 400)
-            pdf = np.exp(-0.5 * ((xs - mean) / sd) ** 2) / (sd * math.sqrt(2 * math.pi))
-            ax.plot(xs, pdf * scale, color="black", lw=1.2,
-                    label="normal law, same exact mean and variance")
-        ax.set_xlabel(f"eigenvalue of the {matrix} matrix")
-        ax.set_title(node.label(), fontsize=10)
-        ax.legend(fontsize=8)
-        buf = io.BytesIO()
-        fig.savefig(buf, format=fmt, bbox_inches="tight")
+
+def render(fig, fmt: str) -> bytes:
+    """The figure's bytes in a format."""
+    buf = io.BytesIO()
+    fig.savefig(buf, format=fmt, bbox_inches="tight", metadata=_metadata(fmt))
+    return buf.getvalue()
+
+
+def _metadata(fmt: str) -> dict:
+    # reproducible files: no creation date in PDF and SVG
+    if fmt == "pdf":
+        return {"CreationDate": None, "Creator": "powerspec"}
+    if fmt == "svg":
+        return {"Date": None, "Creator": "powerspec"}
+    return {"Software": "powerspec"}
+
+
+def plot(expr, output: str | Path, matrix: str = "adjacency", *, view: str = "auto",
+         bins: int = 60, size: tuple[float, float] = (7.0, 4.2), dpi: int = 150,
+         title: str | None = None, xlim: tuple[float, float] | None = None,
+         ylim: tuple[float, float] | None = None, yscale: str = "auto", limit: int | None = None,
+         degrees: str = "out", workers: int = 1, scheduler: str | None = None,
+         progress=None) -> str:
+    """Draw the spectrum of ``expr`` into ``output`` (.png, .pdf, .svg); returns a one-line summary.
+
+    ``view`` is auto | density | log | cdf | standard (see
+    :mod:`~powerspec.interfaces.plot_views`); ``size`` in inches, ``dpi`` for
+    PNG; ``xlim`` in the drawn variable (λ, log|s| or the standardised value);
+    ``yscale`` auto | linear | log.
+    """
+    fmt = check_options(output, bins=bins, size=size, dpi=dpi, xlim=xlim, ylim=ylim)
+    if yscale not in ("auto", "linear", "log"):
+        raise InputError(f"yscale must be auto, linear or log, got {yscale!r}")
+    views = _pyplot_views()
+    if view not in views.VIEWS:
+        raise InputError(f"unknown view {view!r}; choose one of {', '.join(views.VIEWS)}")
+    from powerspec.interfaces.plot_source import gather
+
+    src = gather(expr, matrix, limit=limit, degrees=degrees, workers=workers,
+                 scheduler=scheduler, progress=progress)
+    opts = views.PlotOptions(view=view, bins=bins, size=tuple(size), dpi=dpi, title=title,
+                             xlim=xlim, ylim=ylim, yscale=yscale)
+    fig, summary = views.draw(src, opts)
+    try:
+        data = render(fig, fmt)
     finally:
-        plt.close(fig)
-    write_atomic(output, buf.getvalue())
+        views.close(fig)
+    write_atomic(output, data)
     return f"wrote {output}: {summary}"
 
 
-def _atom_spacing(vals: np.ndarray) -> float:
-    # Scale a density to the height of atoms spaced this far apart.
-    if vals.size < 2:
-        return 1.0
-    return float(np.min(np.diff(np.sort(vals))))
+__all__ = ["FORMATS", "check_options", "plot", "render"]
