@@ -3,7 +3,7 @@
 Each input must be answered, or refused up front in one line with exit status
 2, within the time budget that pytest-timeout enforces (``@pytest.mark.timeout``;
 no timing assertions).  The command runs in-process (``main([...])``).  Inputs
-whose hang or crash lives in code owned by others are ``xfail`` with the owner
+whose hang or crash is not fixed yet are ``xfail`` with the module
 and the root cause in the reason.
 """
 
@@ -115,11 +115,6 @@ def test_family_factor_over_the_entry_cap_is_refused_up_front(capsys):
 
 
 @pytest.mark.timeout(QUICK)
-@pytest.mark.xfail(strict=False, reason=(
-    "owner: engine (factors/families.py, factors/factor.py). Root cause: Factor._certify "
-    "evaluates the closed form of P(10^6) in high precision one eigenvalue at a time "
-    "(families.unit -> hp.cos2pi per j), and Engine.bound asks for that full spectrum before "
-    "the best-first search, which needs only the two largest"))
 def test_top_of_a_large_path_power_answers(capsys):
     n = 10**6
     out = assert_answered(run(["top", f"cart(P({n})^2)", "-m", "2", "--json"], capsys))
@@ -140,10 +135,6 @@ def test_laplacian_of_a_large_star_answers(capsys):
 
 
 @pytest.mark.timeout(QUICK)
-@pytest.mark.xfail(strict=False, reason=(
-    "owner: engine (algebra/moments.py). Root cause: exact_adjacency converts the 3001 x 3001 "
-    "adjacency to a dense list of Fractions and multiplies it order times (exact dense matrix "
-    "powers), instead of traces from the eigenvalues or sparse products"))
 def test_moments_of_a_large_star_answer(capsys):
     out = assert_answered(run(["moments", "K(1, 3000)", "--order", "8", "--json"], capsys))
     moments = dict((p, int(v)) for p, v in json.loads(out)["moments"])
@@ -230,10 +221,6 @@ def test_zero_weight_cartesian_power_answers(capsys):
 
 
 @pytest.mark.timeout(QUICK)
-@pytest.mark.xfail(strict=False, reason=(
-    "owner: engine (algebra/powers.py). Root cause: power() of a one-atom spectrum computes "
-    "the exact multiplicity 2^(10^9) (_pow_count) and order as Python ints of a billion bits "
-    "instead of keeping them factored"))
 def test_zero_weight_direct_power_answers(capsys):
     out = assert_answered(run(["top", "direct(scale(0, K(2))^1000000000)", "--json"], capsys))
     atoms = json.loads(out)["atoms"]
@@ -242,10 +229,6 @@ def test_zero_weight_direct_power_answers(capsys):
 
 
 @pytest.mark.timeout(QUICK)
-@pytest.mark.xfail(strict=False, reason=(
-    "owner: engine (algebra/powers.py). Root cause: power() -> _squaring -> combine -> "
-    "outer_mult squares the two-atom spectrum ~30 times with exact multiplicities of up to "
-    "2^(k-1), Python big-int products of hundreds of millions of bits, before any size check"))
 def test_direct_power_of_k2_answers(capsys):
     out = assert_answered(run(["spectrum", "direct(K(2)^1000000000)", "--json"], capsys))
     values = sorted(float(a[0]) for a in json.loads(out)["atoms"])
