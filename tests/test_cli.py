@@ -176,13 +176,7 @@ def _examples():
         for example in examples:
             if command == "demo":
                 continue  # run by test_python_dash_m_and_demo
-            marks = ()
-            if command == "plot":
-                marks = pytest.mark.xfail(strict=False, reason=(
-                    "owner: plots (interfaces/plots.py). Root cause: plot() computes "
-                    "np.dot(weights, sp.values), but spectrum values are now Balls/Rationals "
-                    "containers (TypeError at plots.py:59); tests/test_plots.py fails the same way"))
-            yield pytest.param(example, marks=marks, id=example.split("'")[0].strip())
+            yield pytest.param(example, id=example.split("'")[0].strip())
 
 
 @pytest.mark.timeout(60)
