@@ -3,10 +3,10 @@
 There is one expression tree (:mod:`powerspec.algebra.tree`).  A symbolic power
 is a :class:`~powerspec.algebra.tree.Product` operand whose copies are a sympy
 Symbol (integer, positive); its leaves hold
-:class:`~powerspec.factors.symbolic.SymbolicFactor` s.  Until ``tree.Product``
-admits a Symbol as copies, :class:`SymbolicCopies` -- a ``Product`` that differs
-only in accepting such copies and giving its order as a sympy expression -- carries
-them.
+:class:`~powerspec.factors.symbolic.SymbolicFactor` s.  ``tree.Product`` lets a
+Symbol through as copies; :class:`SymbolicCopies` is that same ``Product`` with
+the two things only the symbolic domain needs: the check that the Symbol is a
+positive integer, and the order as a sympy expression.
 
 :func:`symbolic_expression` is the adapter from text: it parses with the
 grammar's own :func:`~powerspec.algebra.grammar.parse_syntax`, builds every
