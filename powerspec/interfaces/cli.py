@@ -1,6 +1,8 @@
 """The ``powerspec`` command: parses options, calls the planner, prints the answer.
 
-No mathematics lives here.  The contract with the user:
+No mathematics lives here; the arguments, their ranges and the help text are in
+:mod:`~powerspec.interfaces.cli_args`, the text layouts in
+:mod:`~powerspec.interfaces.report`.  The contract with the user:
 
 * every user error (a bad expression, an option out of range, a bad file, a
   request over a size limit, a spectrum that is not exact) is **one line** on
@@ -20,22 +22,18 @@ from __future__ import annotations
 import argparse
 import contextlib
 import os
-import re
 import signal
 import sys
 import threading
 import warnings
-from collections.abc import Callable, Iterator, Sequence
-from fractions import Fraction
+from collections.abc import Iterator, Sequence
 
 import numpy as np
 
 from powerspec import __version__
-from powerspec.algebra import limits
-from powerspec.algebra.kinds import MATRIX_KINDS
-from powerspec.algebra.moments import MAX_ORDER
-from powerspec.errors import ExpressionError, PowerspecError
-from powerspec.factors.matrix import clip
+from powerspec.answers.answer import dump_json
+from powerspec.errors import PowerspecError
+from powerspec.interfaces.cli_args import EXAMPLES, GRAMMAR, POINTS, UsageError, build_parser
 from powerspec.interfaces.files import check_output_path, write_atomic
 from powerspec.queries import planner
 
@@ -44,291 +42,147 @@ EXIT_BUG = 1
 EXIT_INTERRUPTED = 130
 EXIT_TERMINATED = 143
 
+class _Terminated(BaseException):
+    """Raised by the SIGTERM handler so that every ``finally`` runs (temporary files go)."""
+
+
 DEBUG_VARIABLE = "POWERSPEC_DEBUG"
 """Set to 1 to see the traceback of an internal error."""
 
 MAX_MESSAGE_CHARS = 400
 """Longest error line printed (the middle of a longer one is cut)."""
 
-GRAMMAR = """\
-expression (quote it in the shell):
-  products  cart(G, ...)   direct(G, ...)   strong(G, ...)   mix(a, b, G, ...)
-            G^k inside a product means k copies of G, 1 <= k <= 10^18; equal
-            operands are merged into powers.  mix(a, b) is a*Cartesian +
-            b*direct; for a other than 0 or 1 it is a left fold (at most 10^4
-            copies).  A bare G^k outside a product is an error.
-  factors   P(n) path          C(n) cycle         K(n) complete graph
-            K(m, n) complete bipartite (the star is K(1, n))   J(n) all-ones
-            dicycle(n) or dicycle(n, w=[w0, ..., w(n-1)]) directed cycle, arc weights
-            motif() the shipped demo motif
-            load("file") Matrix Market (.mtx) or edge list of 'u v [weight]' lines;
-            load("file", "directed") for a directed edge list
-            scale(c, G) weights times c     loops(c, G) adds c at every vertex
-  numbers   12  -0.5  1e-3  and fractions 1/50  -3/4; weights and coefficients
-            are 0 or between 1e-100 and 1e100 in magnitude
-"""
-
-EXAMPLES = {
-    "spectrum": ["powerspec spectrum 'cart(K(2)^10)'",
-                 "powerspec spectrum 'direct(P(3)^4, C(5))' --json",
-                 "powerspec spectrum 'cart(C(4)^3)' --matrix laplacian",
-                 "powerspec spectrum 'cart(K(2)^k)' --symbolic"],
-    "top": ["powerspec top 'cart(K(2)^1000000000)' -m 3",
-            "powerspec top 'direct(P(3)^41)' -m 2 --bottom",
-            "powerspec top 'direct(K(4), dicycle(12, w=[1, 1, 1/5, 1, 1, 1, 1, 1, 1, 1, 1, 1]))'"],
-    "cdf": ["powerspec cdf 'cart(C(5)^1000000)' 10",
-            "powerspec cdf 'cart(C(5)^100)' 0 --tol 0.01",
-            "powerspec cdf 'direct(K(3)^20)' 0 --method law"],
-    "count": ["powerspec count 'cart(K(2)^20)' -0.5 0.5",
-              "powerspec count 'cart(C(5)^6)' -1/2 10"],
-    "quantile": ["powerspec quantile 'cart(C(5)^1000000)' 0.9",
-                 "powerspec quantile 'strong(K(3)^30)' 1/2"],
-    "moments": ["powerspec moments 'direct(K(1, 3)^20)' --order 6",
-                "powerspec moments 'cart(K(2)^k)' --symbolic --order 2"],
-    "invariants": ["powerspec invariants 'cart(C(45)^4)'",
-                   "powerspec invariants 'direct(K(1, 3)^5)' --json"],
-    "plot": ["powerspec plot 'cart(C(5)^3)' -o spectrum.png"],
-    "demo": ["powerspec demo"],
-}
-
-
-def _epilog(command: str | None) -> str:
-    lines = EXAMPLES[command] if command else [ex[0] for ex in EXAMPLES.values()]
-    text = "examples:\n" + "".join(f"  {line}\n" for line in lines)
-    return text if command == "demo" else GRAMMAR + "\n" + text
-
-
-_NEGATIVE_NUMBER = re.compile(r"^-(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?(?:/[0-9.eE+-]+)?$")
-
-
-class _Parser(argparse.ArgumentParser):
-    """argparse with one-line errors, reading -1e3 and -3/4 as numbers rather than options."""
-
-    def __init__(self, *args, **kwargs):
-        super().__init__(*args, **kwargs)
-        # argparse's own pattern only knows -12 and -1.5; A, B and X may be -1e3 or -1/2.
-        self._negative_number_matcher = _NEGATIVE_NUMBER
-
-    def error(self, message: str):  # noqa: D102 - argparse hook
-        raise _UsageError(f"{message} (see '{self.prog} --help')")
-
-
-class _UsageError(Exception):
-    pass
-
-
-class _Terminated(BaseException):
-    """Raised by the SIGTERM handler so that every ``finally`` runs (temporary files go)."""
-
-
-# ------------------------------------------------------------- option values
-
-
-def _exact(text: str, what: str) -> int | Fraction:
-    try:
-        return limits.read_number(text)
-    except ExpressionError as exc:
-        raise argparse.ArgumentTypeError(f"{what}: {exc}") from None
-
-
-def _point(text: str) -> float:
-    """A point on the spectrum's axis: 0 or a normal double (finite)."""
-    v = _exact(text, "expected a number")
-    if v != 0 and not (limits.DOUBLE_MIN <= abs(v) <= limits.DOUBLE_MAX):
-        raise argparse.ArgumentTypeError(
-            f"{clip(text)} is out of range: give 0 or a finite magnitude between 2.2e-308 "
-            "and 1.8e308")
-    return float(v)
-
-
-def _ranged(lo: Fraction, hi: Fraction, what: str, *, lo_open: bool = False,
-            hi_open: bool = False) -> Callable[[str], float]:
-    def convert(text: str) -> float:
-        v = _exact(text, f"expected {what}")
-        f = float(v) if abs(v) <= limits.DOUBLE_MAX else float("inf")
-        low_ok = lo < v if lo_open else lo <= v
-        high_ok = f < hi if hi_open else f <= hi  # compared as the double actually used
-        if not (low_ok and high_ok) or (v != 0 and abs(v) < limits.DOUBLE_MIN):
-            raise argparse.ArgumentTypeError(f"{clip(text)} is out of range: {what}")
-        return f
-    return convert
-
-
-def _whole(lo: int, hi: int, what: str) -> Callable[[str], int]:
-    def convert(text: str) -> int:
-        try:
-            v = limits.read_number(text)
-        except ExpressionError:
-            v = None
-        if not isinstance(v, int) or not lo <= v <= hi:
-            raise argparse.ArgumentTypeError(
-                f"expected a positive whole number from {lo} to {hi:,} ({what}), got {clip(text)}")
-        return v
-    return convert
-
-
-_level = _ranged(Fraction(0), Fraction(1), "a level q with 0 < q < 1", lo_open=True, hi_open=True)
-_tol = _ranged(limits.TOL_MIN, Fraction(1), "a width tol with 1e-12 <= tol < 1", hi_open=True)
-_time = _ranged(Fraction(0), Fraction(limits.TIME_MAX), "a time t with 0 <= t <= 1e6")
-_m = _whole(1, limits.MAX_M, "how many values are printed")
-_limit = _whole(1, limits.MAX_LIMIT, "distinct eigenvalues held in memory")
-_order = _whole(1, MAX_ORDER, "the highest moment order")
-_bins = _whole(1, limits.MAX_BINS, "histogram bins")
-
-
-# --------------------------------------------------------------------- parser
-
-_EXPRESSION_HELP = "the product, e.g. 'cart(C(10)^6)' (grammar below)"
-
-
-def _command(sub, name: str, helptext: str) -> argparse.ArgumentParser:
-    p = sub.add_parser(name, help=helptext, description=helptext, epilog=_epilog(name),
-                       formatter_class=argparse.RawDescriptionHelpFormatter)
-    if name != "demo":
-        p.add_argument("expression", metavar="EXPR", help=_EXPRESSION_HELP)
-    return p
-
-
-def _common(p: argparse.ArgumentParser, matrix: bool = True) -> None:
-    if matrix:
-        p.add_argument("--matrix", default="adjacency", choices=MATRIX_KINDS,
-                       help="which matrix of the product (default: adjacency)")
-        p.add_argument("--degrees", default="out", choices=("out", "in"),
-                       help="degree used by laplacian/signless/transition for directed factors")
-    p.add_argument("--json", action="store_true", help="print the stable JSON layout")
-    p.add_argument("--limit", type=_limit, default=None, metavar="N",
-                   help=f"largest number of distinct eigenvalues to enumerate (1 to "
-                        f"{limits.MAX_LIMIT:,}; default 2,000,000)")
-    p.add_argument("--output", metavar="FILE", default=None,
-                   help="write the answer to FILE (atomically; a new or regular file) "
-                        "instead of stdout")
-
-
-def _symbolic(p: argparse.ArgumentParser) -> None:
-    p.add_argument("--symbolic", action="store_true",
-                   help="closed forms as sympy expressions (a bare name as power, e.g. G^k)")
-    p.add_argument("--latex", action="store_true", help="with --symbolic: print LaTeX")
-
-
-_POINTS = {"cdf": (("x", _point, "the point: the fraction of eigenvalues <= X is reported"),),
-           "count": (("a", _point, "left end of the interval [A, B]"),
-                     ("b", _point, "right end of the interval [A, B]")),
-           "quantile": (("q", _level, "the level, 0 < Q < 1 (e.g. 0.5 or 1/2 for the median)"),)}
-
-
-def build_parser() -> argparse.ArgumentParser:
-    """The argument parser of the ``powerspec`` command.
-
-    >>> build_parser().parse_args(["top", "cart(C(5)^3)", "-m", "2"]).m
-    2
-    """
-    p = _Parser(prog="powerspec",
-                description="Spectra of graph products and graph powers, from the factors.",
-                epilog=_epilog(None), formatter_class=argparse.RawDescriptionHelpFormatter)
-    p.add_argument("--version", action="version", version=f"powerspec {__version__}")
-    sub = p.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
-
-    s = _command(sub, "spectrum", "the full exact multiset of eigenvalues")
-    _common(s)
-    _symbolic(s)
-
-    t = _command(sub, "top", "the M largest (or smallest) distinct eigenvalues")
-    t.add_argument("-m", type=_m, default=5, metavar="M",
-                   help=f"how many distinct values, 1 to {limits.MAX_M:,} (default 5)")
-    t.add_argument("--bottom", action="store_true", help="the smallest instead of the largest")
-    _common(t)
-    _symbolic(t)
-
-    for name, helptext in (("cdf", "fraction of eigenvalues <= X, with bounds"),
-                           ("count", "number of eigenvalues in [A, B], with bounds"),
-                           ("quantile", "the Q-quantile of the spectrum, with bounds")):
-        q = _command(sub, name, helptext)
-        for arg, kind, arghelp in _POINTS[name]:
-            q.add_argument(arg, type=kind, metavar=arg.upper(), help=arghelp)
-        q.add_argument("--method", default="auto", choices=("auto", "exact", "bracket", "law"),
-                       help="which tier answers (auto: the cheapest that meets --tol)")
-        q.add_argument("--tol", type=_tol, default=None,
-                       help="wanted width of the bound, 1e-12 <= TOL < 1")
-        _common(q)
-
-    mo = _command(sub, "moments", "exact spectral moments tr(M^p)")
-    mo.add_argument("--order", type=_order, default=4, metavar="P",
-                    help=f"highest power p, 1 to {MAX_ORDER} (default 4)")
-    mo.add_argument("--per-vertex", action="store_true", help="tr(M^p) divided by the order")
-    _common(mo)
-    _symbolic(mo)
-
-    iv = _command(sub, "invariants", "spectral radius, connectivity, spanning trees, ...")
-    _common(iv, matrix=False)
-    iv.add_argument("--degrees", default="out", choices=("out", "in"),
-                    help="degree used for directed factors' Laplacians")
-    iv.add_argument("--time", type=_time, default=1.0, metavar="T",
-                    help="heat-kernel time t, 0 <= T <= 1e6 (default 1)")
-    _symbolic(iv)
-
-    pl = _command(sub, "plot", "draw the spectrum against a reference law")
-    pl.add_argument("-o", "--output", required=True, metavar="FILE",
-                    help="a .png, .pdf or .svg file (written atomically)")
-    pl.add_argument("--bins", type=_bins, default=60,
-                    help=f"histogram bins, 1 to {limits.MAX_BINS:,} (default 60)")
-    pl.add_argument("--matrix", default="adjacency", choices=MATRIX_KINDS,
-                    help="which matrix of the product (default: adjacency)")
-    pl.add_argument("--degrees", default="out", choices=("out", "in"),
-                    help="degree used by laplacian/signless/transition for directed factors")
-    pl.add_argument("--limit", type=_limit, default=None, metavar="N",
-                    help="largest number of distinct eigenvalues to enumerate")
-
-    d = _command(sub, "demo", "the built-in worked scenario")
-    d.add_argument("--output", metavar="FILE", default=None, help="write the report to FILE")
-    return p
-
-
 # ------------------------------------------------------------------------ run
 
 
-def _run(args: argparse.Namespace) -> str:
-    if getattr(args, "latex", False) and not args.symbolic:
-        raise _UsageError("--latex goes with --symbolic")
-    if getattr(args, "symbolic", False):
-        from powerspec.algebra.symbolic import symbolic_report, symbolic_text
-        from powerspec.answers.answer import dump_json
+def _symbolic_run(args: argparse.Namespace) -> str:
+    from powerspec.answers.answer import dump_json
+    from powerspec.interfaces.symbolic_contract import contract
+    from powerspec.interfaces.symbolic_printing import symbolic_report, symbolic_text
 
-        extra = {"max_power": args.order} if args.command == "moments" else {}
-        rep = symbolic_report(args.command, args.expression,
-                              matrix=getattr(args, "matrix", "adjacency"), latex=args.latex, **extra)
-        return dump_json(rep) + "\n" if args.json else symbolic_text(rep, latex=args.latex)
-    if args.command in ("cdf", "count", "quantile"):
-        fn = getattr(planner, args.command)
-        point = tuple(getattr(args, n) for n, _, _ in _POINTS[args.command])
-        ans = fn(args.expression, *point, args.matrix, method=args.method, tol=args.tol,
-                 limit=args.limit, degrees=args.degrees)
-    elif args.command == "moments":
+    if getattr(args, "method", "exact") == "estimate":
+        raise UsageError("--method estimate has no symbolic form; drop --symbolic")
+    extra = {"max_power": args.order} if args.command == "moments" else {}
+    rep = symbolic_report(args.command, args.expression,
+                          matrix=getattr(args, "matrix", "adjacency"), latex=args.latex, **extra)
+    rep = contract(rep, bottom=getattr(args, "bottom", False))
+    return dump_json(rep) + "\n" if args.json else symbolic_text(rep, latex=args.latex)
+
+
+def _estimate_run(args: argparse.Namespace) -> str:
+    from powerspec.interfaces.estimate import estimate
+
+    top = args.command == "top"
+    est = estimate(args.expression, args.matrix, degrees=args.degrees,
+                   m=args.m if top else None, bottom=top and args.bottom)
+    if args.json:
+        return est.to_json()
+    return est.to_text(head=None if top else args.head)
+
+
+def _law_of(args: argparse.Namespace, tier: str | None) -> tuple[dict, str | None]:
+    """The limit law's parameters and the linearised variable's name, when a law answered."""
+    if tier != "law":
+        return {}, None
+    from powerspec.interfaces.plot_source import linear_form
+    from powerspec.queries.frozen import distribution
+
+    d = distribution(args.expression, args.matrix, method="law", limit=args.limit,
+                     degrees=args.degrees)
+    return dict(d.params), linear_form(d)[3]
+
+
+def _distribution_run(args: argparse.Namespace) -> str:
+    from powerspec.interfaces.report import answer_text, truncated_json
+
+    fn = getattr(planner, args.command)
+    point = tuple(getattr(args, n) for n, _, _ in POINTS[args.command])
+    ans = fn(args.expression, *point, args.matrix, method=args.method, tol=args.tol,
+             limit=args.limit, degrees=args.degrees)
+    law, s_text = _law_of(args, ans.inputs.get("tier"))
+    if args.json:
+        return dump_json(truncated_json(ans, None, law)) + "\n"
+    return answer_text(ans, law=law, s_text=s_text)
+
+
+def _sweep_run(args: argparse.Namespace, progress) -> str:
+    from powerspec.interfaces.sweep import sweep
+
+    if args.plot is not None:
+        from powerspec.interfaces.plots import check_plot_path
+
+        check_plot_path(args.plot)  # before any work
+    sw = sweep(args.expression, args.quantity, args.over, args.matrix, limit=args.limit,
+               degrees=args.degrees, t=args.time, workers=args.workers,
+               scheduler=args.scheduler, progress=progress)
+    wrote = None
+    if args.plot is not None:
+        from powerspec.interfaces.plots import plot_sweep
+
+        wrote = plot_sweep(sw, args.plot)
+    if args.json:
+        data = sw.to_dict()
+        if args.plot is not None:
+            data["plot"] = str(args.plot)
+        return dump_json(data) + "\n"
+    return sw.to_text() + (f"\n  {wrote}\n" if wrote else "")
+
+
+def _run(args: argparse.Namespace) -> str:
+    from powerspec.interfaces.progress import progress_bar
+    from powerspec.interfaces.report import answer_text, truncated_json
+
+    if getattr(args, "latex", False) and not args.symbolic:
+        raise UsageError("--latex goes with --symbolic")
+    if getattr(args, "symbolic", False):
+        return _symbolic_run(args)
+    if getattr(args, "method", None) == "estimate":
+        return _estimate_run(args)
+    command = args.command
+    if command in ("cdf", "count", "quantile"):
+        return _distribution_run(args)
+    if command == "demo":
+        from powerspec.interfaces.demo import run_demo
+
+        return run_demo()
+    if command == "moments":
         from powerspec.queries.moments import moment_answer
 
         ans = moment_answer(args.expression, order=args.order, matrix=args.matrix,
                             degrees=args.degrees, per_vertex=args.per_vertex)
-    elif args.command == "invariants":
+        return ans.to_json() if args.json else answer_text(ans)
+    if command == "invariants":
         from powerspec.queries.invariants import invariants
 
         ans = invariants(args.expression, limit=args.limit, degrees=args.degrees, t=args.time)
-    elif args.command == "spectrum":
-        ans = planner.spectrum(args.expression, args.matrix, limit=args.limit,
-                               degrees=args.degrees)
-    elif args.command == "top":
-        ans = planner.top(args.expression, args.m, args.matrix, bottom=args.bottom,
-                          limit=args.limit, degrees=args.degrees)
-    elif args.command == "plot":
-        from powerspec.interfaces.plots import plot
+        return ans.to_json() if args.json else answer_text(ans)
+    label, unit = ("sweep", "point") if command == "sweep" else ("symmetry blocks", "block")
+    with progress_bar(label, unit=unit, quiet=args.quiet) as progress:
+        parallel = {"workers": args.workers, "scheduler": args.scheduler, "progress": progress}
+        if command == "sweep":
+            return _sweep_run(args, progress)
+        if command == "plot":
+            from powerspec.interfaces.plots import plot
 
-        return plot(args.expression, args.output, args.matrix, bins=args.bins, limit=args.limit,
-                    degrees=args.degrees) + "\n"
-    elif args.command == "demo":
-        from powerspec.interfaces.demo import run_demo
+            return plot(args.expression, args.output, args.matrix, view=args.view,
+                        bins=args.bins, size=tuple(args.size), dpi=args.dpi, title=args.title,
+                        xlim=_pair(args.xlim), ylim=_pair(args.ylim), yscale=args.yscale,
+                        limit=args.limit, degrees=args.degrees, **parallel) + "\n"
+        if command == "spectrum":
+            ans = planner.spectrum(args.expression, args.matrix, limit=args.limit,
+                                   degrees=args.degrees, **parallel)
+            if args.json:
+                return dump_json(truncated_json(ans, args.head)) + "\n"
+            return answer_text(ans, head=args.head, full=args.all)
+        if command == "top":
+            ans = planner.top(args.expression, args.m, args.matrix, bottom=args.bottom,
+                              limit=args.limit, degrees=args.degrees, **parallel)
+            return ans.to_json() if args.json else answer_text(ans)
+    raise UsageError(f"unknown command {command!r}")  # pragma: no cover - argparse restricts
 
-        return run_demo()
-    else:  # pragma: no cover - argparse restricts the choices
-        raise _UsageError(f"unknown command {args.command!r}")
-    return ans.to_json() if args.json else ans.to_text()
+
+def _pair(v) -> tuple[float, float] | None:
+    return None if v is None else (float(v[0]), float(v[1]))
 
 
 def _execute(parser: argparse.ArgumentParser, argv: Sequence[str] | None) -> int:
@@ -359,7 +213,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         with _quiet(), _sigterm_raises():
             return _execute(parser, argv)
-    except (PowerspecError, _UsageError) as exc:
+    except (PowerspecError, UsageError) as exc:
         return _fail(str(exc), EXIT_USER_ERROR)
     except MemoryError:
         return _fail("ran out of memory; ask a smaller question (a smaller power or factor, "
@@ -438,6 +292,9 @@ def _silence_stdout() -> None:
 
 def _one_line(msg: str) -> str:
     return " ".join(msg.split())
+
+
+__all__ = ["EXAMPLES", "EXIT_USER_ERROR", "GRAMMAR", "build_parser", "main"]
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -20,8 +20,9 @@ bounds (:meth:`PlotSource.cdf`) and the certified mass of histogram bins
 
 Reading the linearisation (x = alpha + beta s), the law's lattice and the
 log-space CDF uses the frozen distribution's tier objects directly (see
-``_tier_*``); they are the three things a public attribute of
-:class:`~powerspec.queries.frozen.SpectralDistribution` would replace.
+:func:`linear_form` and ``_tier_*``); they are the three things a public
+attribute of :class:`~powerspec.queries.frozen.SpectralDistribution` would
+replace.
 
 >>> src = gather("cart(K(2)^6)")
 >>> src.mode, src.lattice, src.atoms.share.tolist()[:2]
@@ -138,14 +139,20 @@ def _atom_cdf(keys: np.ndarray, share: np.ndarray, t: np.ndarray):
 
 
 # ------------------------------------------------------ tier internals
-def _tier_linear(d: SpectralDistribution):
-    """(mode, c0, c1) with s = c0 + c1 λ, from the distribution's query (x = alpha + beta s)."""
+def linear_form(d: SpectralDistribution) -> tuple[str | None, float, float, str | None]:
+    """(mode, c0, c1, text) with s = c0 + c1 λ the linearised eigenvalue of the distribution's
+    product rule (x = alpha + beta s); mode 'add', 'mul' or None when no rule applies.
+
+    >>> linear_form(distribution("strong(K(3)^4)"))
+    ('mul', 1.0, 1.0, '1 + λ')
+    """
     q = d._q
     try:
         q._flat()
     except (NotExactError, SizeLimitError, InputError):
-        return None, 0.0, 1.0
-    return q.mode, -q.alpha / q.beta, 1.0 / q.beta
+        return None, 0.0, 1.0, None
+    c0, c1 = -q.alpha / q.beta, 1.0 / q.beta
+    return q.mode, c0, c1, s_text(c0, c1)
 
 
 def _tier_lattice(d: SpectralDistribution, mode: str | None, c0: float, c1: float):
@@ -245,7 +252,7 @@ def gather(expr, matrix: str = "adjacency", *, limit: int | None = None, degrees
         raise InputError("plots show real spectra; this one is complex (plot the real parts "
                          "with the Python API's distribution(...))")
     band, auto = _distribution(node, matrix, limit, degrees, notes)
-    mode, c0, c1 = _tier_linear(auto) if auto is not None else (None, 0.0, 1.0)
+    mode, c0, c1, _ = linear_form(auto) if auto is not None else (None, 0.0, 1.0, None)
     if sp is None and band is None:
         raise InputError(f"nothing to plot for {node.label()}: neither the exact spectrum nor a "
                          f"distribution tier answers ({'; '.join(notes)})")
@@ -265,4 +272,4 @@ def gather(expr, matrix: str = "adjacency", *, limit: int | None = None, degrees
     return src
 
 
-__all__ = ["ExactAtoms", "PLOT_TOLS", "PlotSource", "gather", "s_text"]
+__all__ = ["ExactAtoms", "PLOT_TOLS", "PlotSource", "gather", "linear_form", "s_text"]

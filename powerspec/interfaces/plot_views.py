@@ -32,17 +32,18 @@ import math
 import textwrap
 from dataclasses import dataclass
 
-import matplotlib
+import numpy as np
 
-matplotlib.use("Agg")
-import matplotlib.pyplot as plt  # noqa: E402  (after choosing the file-only backend)
-import numpy as np  # noqa: E402
-from matplotlib.lines import Line2D  # noqa: E402
+# Figures are built with the object interface, never through pyplot: no global backend is
+# chosen or changed (a notebook's backend stays as it was), and no figure outlives its file.
+from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
 
-from powerspec.answers.answer import count_text  # noqa: E402
-from powerspec.errors import InputError  # noqa: E402
-from powerspec.interfaces.plot_source import PlotSource  # noqa: E402
-from powerspec.interfaces.report import share_text  # noqa: E402
+from powerspec.answers.answer import count_text
+from powerspec.errors import InputError
+from powerspec.interfaces.plot_source import PlotSource
+from powerspec.interfaces.report import fmt_mean as _fmt_mean
+from powerspec.interfaces.report import share_text
 
 VIEWS = ("auto", "density", "log", "cdf", "standard")
 STEM_MAX = 120
@@ -55,6 +56,9 @@ LOG_DECADES = 4.0
 """Shares spanning more decades than this get a logarithmic axis (yscale auto)."""
 
 SQRT2PI = math.sqrt(2 * math.pi)
+
+NZ_VISIBLE = 1e-9
+"""Below this share of non-zero s the log view draws the law of log|s| given s ≠ 0 alone."""
 
 
 @dataclass
@@ -91,24 +95,11 @@ def _fmt(v) -> str:
     return f"{float(v):.6g}"
 
 
-def _fmt_mean(mu: float, sd: float) -> str:
-    """A mean to six digits of its own size or of the spread, whichever is coarser (a mean of
-    -5.6e-8 beside sigma = 44721 prints as 0).
-
-    >>> _fmt_mean(-5.55e-08, 44721.0), _fmt_mean(22.2222222, 26.4), _fmt_mean(231049060.1866, 1e4)
-    ('0', '22.2222', '231049060.19')
-    """
-    unit = 1e-6 * sd
-    if unit > 0 and abs(mu) < unit:
-        return "0"
-    digits = 6 if not sd > 0 else min(17, max(6, math.ceil(math.log10(abs(mu) / sd)) + 6))
-    return f"{float(mu):.{digits}g}"
-
-
 # ------------------------------------------------------------ reference law
 def _law(src: PlotSource, ax: _Axis):
     """(pdf, cdf, legend) of the reference law in the drawn variable, or None."""
     p = src.params
+    conditional = ""
     if ax.base == "x" and "mu" in p and p["sigma2"] > 0:
         mu, sd = p["mu"], math.sqrt(p["sigma2"])
         legend = f"normal law, μ = {_fmt_mean(mu, sd)}, σ² = {_fmt(p['sigma2'])}"
@@ -118,12 +109,19 @@ def _law(src: PlotSource, ax: _Axis):
         nz = 1.0 - p["zero_mass"]
         legend = (f"normal law of log|{src.s_text}| given {src.s_text} ≠ 0, μ = {_fmt_mean(mu, sd)}, "
                   f"σ² = {_fmt(p['log_sigma2'])}" + (f", times P({src.s_text} ≠ 0) = {_fmt(nz)}"
-                                                     if nz < 1 else ""))
+                                                     if NZ_VISIBLE <= nz < 1 else ""))
+        if nz < NZ_VISIBLE:
+            # the non-zero part is too small to see beside the zero atom: draw its law alone
+            share = _fmt(nz) if nz > 0 else "below 1e-308"
+            conditional = (f" (drawn given {src.s_text} ≠ 0: P({src.s_text} ≠ 0) = {share} is too "
+                           "small to show beside the exact zero mass)")
+            legend += conditional
+            nz = 1.0
     else:
         return None
     if ax.scale != 1.0:
         legend = "N(0, 1)" + (f" × {_fmt(nz)}" if nz < 1 else "") + \
-            f"  (standardised by μ = {_fmt_mean(mu, sd)}, σ = {_fmt(sd)})"
+            f"  (standardised by μ = {_fmt_mean(mu, sd)}, σ = {_fmt(sd)})" + conditional
 
     def pdf(z):
         v = ax.unshow(z)
@@ -161,7 +159,30 @@ def _atom_values(src: PlotSource, base: str) -> tuple[np.ndarray, np.ndarray, np
     if v is None:
         return None
     ok = np.isfinite(v)
-    return v[ok], a.share[ok], a.log10_share[ok]
+    v, share, l10 = v[ok], a.share[ok], a.log10_share[ok]
+    if base == "u":
+        v, share, l10 = _merge_equal(v, share, l10)
+    return v, share, l10
+
+
+def _merge_equal(v: np.ndarray, share: np.ndarray, l10: np.ndarray):
+    """Atoms with the same log|s| (s and -s) as one stem carrying both shares.
+
+    >>> _merge_equal(np.array([1.0, 0.5, 1.0]), np.array([0.25, 0.5, 0.25]),
+    ...              np.log10([0.25, 0.5, 0.25]))[:2]
+    (array([0.5, 1. ]), array([0.5, 0.5]))
+    """
+    if v.size < 2:
+        return v, share, l10
+    order = np.argsort(v, kind="stable")
+    v, share, l10 = v[order], share[order], l10[order]
+    # equal up to the rounding of log|s| (both signs of one |s| give the same double, or
+    # neighbours of it)
+    new = np.concatenate([[True], np.diff(v) > 1e-12 * np.maximum(1.0, np.abs(v[1:]))])
+    starts = np.flatnonzero(new)
+    merged_l10 = np.array([np.logaddexp.reduce(l10[a:b] * np.log(10)) / np.log(10)
+                           for a, b in zip(starts, [*starts[1:], v.size], strict=True)])
+    return v[starts], np.add.reduceat(share, starts), merged_l10
 
 
 def _range(src: PlotSource, ax: _Axis, opts: PlotOptions) -> tuple[float, float]:
@@ -234,7 +255,8 @@ def _stems(axes, src, ax: _Axis, vals, share, l10, opts, law) -> str:
             twin.plot(grid, pdf(grid), color="black", lw=1.1, label=legend)
             twin.set_ylabel("density of the law")
             twin.set_ylim(bottom=0)
-    return f"{vals.size} exact atoms as stems" + (" (log scale)" if log_y else "")
+    what = "1 exact atom as a stem" if vals.size == 1 else f"{vals.size} exact atoms as stems"
+    return what + (" (log scale)" if log_y else "")
 
 
 def _histogram(axes, src, ax: _Axis, lo, hi, opts, law) -> str:
@@ -244,12 +266,17 @@ def _histogram(axes, src, ax: _Axis, lo, hi, opts, law) -> str:
     z = edges
     dens, dlo, dhi = est / width, mlo / width, mhi / width
     exact = src.tier == "exact"
-    label = ("exact spectrum, histogram" if exact else
-             f"{src.tier} tier: certified bin masses")
-    axes.stairs(dens, z, fill=True, color="tab:blue", alpha=0.45, label=label)
-    if not exact:
+    if exact:
+        axes.stairs(dens, z, fill=True, color="tab:blue", alpha=0.45,
+                    label="exact spectrum, histogram")
+    else:
+        # the certain part (up to each bin's rigorous lower bound) filled, the uncertain part
+        # (lower to upper bound) shaded apart, and the tier's estimate as a line through it
+        axes.stairs(dlo, z, fill=True, color="tab:blue", alpha=0.35,
+                    label=f"{src.tier} tier: certified lower bound of each bin's mass")
         axes.bar(z[:-1], dhi - dlo, bottom=dlo, width=width, align="edge", color="tab:orange",
-                 alpha=0.35, lw=0, label="rigorous lower/upper bound per bin")
+                 alpha=0.4, lw=0, label="between the rigorous lower and upper bounds")
+        axes.stairs(dens, z, color="tab:blue", lw=1.2, label=f"{src.tier} tier estimate")
     axes.set_ylabel("density")
     positive = dens[dens > 0]
     log_y = opts.yscale == "log" or (opts.yscale == "auto" and exact and positive.size > 1 and
@@ -378,13 +405,11 @@ def _legend(fig, axes, extra: str | None) -> None:
 
 
 def _figure(view: str, opts: PlotOptions, with_residual: bool):
+    fig = Figure(figsize=opts.size, dpi=opts.dpi, layout="constrained")
     if view == "cdf" and with_residual:
-        fig, (axes, resid) = plt.subplots(2, 1, figsize=opts.size, dpi=opts.dpi, sharex=True,
-                                          layout="constrained",
-                                          gridspec_kw={"height_ratios": [3, 1]})
+        axes, resid = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [3, 1]})
         return fig, axes, resid
-    fig, axes = plt.subplots(figsize=opts.size, dpi=opts.dpi, layout="constrained")
-    return fig, axes, None
+    return fig, fig.subplots(), None
 
 
 def draw(src: PlotSource, opts: PlotOptions):
@@ -395,6 +420,9 @@ def draw(src: PlotSource, opts: PlotOptions):
     notes = list(src.notes)
     if view == "auto":
         view = "log" if src.mode == "mul" else "density"
+        if view == "log" and src.atoms is not None and not src.params.get("log_sigma2", 0) > 0:
+            # |s| takes one value (e.g. direct powers of P(3)): the λ axis says more
+            view = "density"
     if view == "density" and src.mode == "mul" and src.atoms is None:
         view = "log"
         notes.append("λ spans beyond a linear axis at this size: drawn on the log-magnitude axis")
@@ -404,22 +432,18 @@ def draw(src: PlotSource, opts: PlotOptions):
         notes.append("no reference law: this matrix kind does not follow a product rule here"
                      if src.mode is None else "no reference law with positive variance")
     fig, axes, resid = _figure(view, opts, law is not None)
-    try:
-        what = _cdf(axes, src, ax, opts, resid) if view == "cdf" else _density(axes, src, ax, opts)
-        (resid if resid is not None else axes).set_xlabel(ax.label)
-        if opts.ylim is not None:
-            axes.set_ylim(*opts.ylim)
-        if opts.xlim is not None:
-            axes.set_xlim(*ax.show(_range(src, ax, opts)))
-        title = opts.title if opts.title is not None else (
-            f"{src.expression}: {src.matrix} spectrum, {order_text(src.order)} vertices")
-        axes.set_title(title, fontsize=10)
-        axes.grid(alpha=0.25)
-        _legend(fig, resid if resid is not None else axes,
-                _zero_note(src) if src.mode == "mul" else None)
-    except BaseException:
-        plt.close(fig)
-        raise
+    what = _cdf(axes, src, ax, opts, resid) if view == "cdf" else _density(axes, src, ax, opts)
+    (resid if resid is not None else axes).set_xlabel(ax.label)
+    if opts.ylim is not None:
+        axes.set_ylim(*opts.ylim)
+    if opts.xlim is not None:
+        axes.set_xlim(*ax.show(_range(src, ax, opts)))
+    title = opts.title if opts.title is not None else (
+        f"{src.expression}: {src.matrix} spectrum, {order_text(src.order)} vertices")
+    axes.set_title(title, fontsize=10)
+    axes.grid(alpha=0.25)
+    _legend(fig, resid if resid is not None else axes,
+            _zero_note(src) if src.mode == "mul" else None)
     summary = f"{view} view: {what}"
     if law is not None:
         summary += "; reference: " + law[2]
@@ -441,9 +465,4 @@ def order_text(n) -> str:
     return f"≈ {float(lead):.3g}e+{rest.split()[0]}"
 
 
-def close(fig) -> None:
-    """Release a figure."""
-    plt.close(fig)
-
-
-__all__ = ["PlotOptions", "STEM_MAX", "VIEWS", "close", "draw", "lattice_edges", "order_text"]
+__all__ = ["PlotOptions", "STEM_MAX", "VIEWS", "draw", "lattice_edges", "order_text"]

@@ -20,7 +20,7 @@ import io
 from pathlib import Path
 
 from powerspec.errors import InputError
-from powerspec.interfaces.files import write_atomic
+from powerspec.interfaces.files import check_output_path, write_atomic
 
 FORMATS = ("png", "pdf", "svg")
 MAX_INCHES = 40.0
@@ -45,12 +45,43 @@ def check_options(output, *, bins: int, size, dpi: int, xlim, ylim) -> str:
     return fmt
 
 
+def check_plot_path(output) -> str:
+    """The format of a plot file name (png, pdf, svg); InputError for another extension or a
+    target that cannot be written (checked before any work)."""
+    fmt = Path(output).suffix.lower().lstrip(".")
+    if fmt not in FORMATS:
+        raise InputError(f"plot output must end in .png, .pdf or .svg, got {str(output)!r}")
+    check_output_path(output)
+    return fmt
+
+
 def _pyplot_views():
     try:
         from powerspec.interfaces import plot_views
     except ImportError as exc:
         raise InputError("plotting needs matplotlib: pip install 'powerspec[plot]'") from exc
     return plot_views
+
+
+def plot_sweep(sw, output: str | Path, *, size: tuple[float, float] = (6.4, 4.0), dpi: int = 150,
+               title: str | None = None) -> str:
+    """Draw a :class:`~powerspec.interfaces.sweep.Sweep`'s curve with its rigorous bounds into
+    ``output`` (.png, .pdf, .svg); returns a one-line summary.
+
+    >>> import tempfile, os
+    >>> from powerspec.interfaces.sweep import sweep
+    >>> path = os.path.join(tempfile.mkdtemp(), "s.svg")
+    >>> plot_sweep(sweep("cart(K(2)^k)", "largest", "k=1..4"), path).endswith("against k")
+    True
+    """
+    fmt = check_options(output, bins=1, size=size, dpi=dpi, xlim=None, ylim=None)
+    try:
+        from powerspec.interfaces.plot_sweep import draw_sweep
+    except ImportError as exc:
+        raise InputError("plotting needs matplotlib: pip install 'powerspec[plot]'") from exc
+    fig, summary = draw_sweep(sw, size=size, dpi=dpi, title=title)
+    write_atomic(output, render(fig, fmt))
+    return f"wrote {output}: {summary}"
 
 
 def render(fig, fmt: str) -> bytes:
@@ -95,12 +126,8 @@ def plot(expr, output: str | Path, matrix: str = "adjacency", *, view: str = "au
     opts = views.PlotOptions(view=view, bins=bins, size=tuple(size), dpi=dpi, title=title,
                              xlim=xlim, ylim=ylim, yscale=yscale)
     fig, summary = views.draw(src, opts)
-    try:
-        data = render(fig, fmt)
-    finally:
-        views.close(fig)
-    write_atomic(output, data)
+    write_atomic(output, render(fig, fmt))
     return f"wrote {output}: {summary}"
 
 
-__all__ = ["FORMATS", "check_options", "plot", "render"]
+__all__ = ["FORMATS", "check_options", "check_plot_path", "plot", "plot_sweep", "render"]

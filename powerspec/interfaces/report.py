@@ -32,6 +32,7 @@ powerspec spectrum
 
 from __future__ import annotations
 
+import math
 from fractions import Fraction
 from typing import Any
 
@@ -165,23 +166,40 @@ def atom_lines(ans: Answer, head: int | None = None, full: bool = False) -> list
     return lines
 
 
-def law_lines(params: dict, s_text: str | None = None) -> list[str]:
-    """The limit law's parameters (as :attr:`SpectralDistribution.params` names them).
+def fmt_mean(mu: float, sd: float) -> str:
+    """A law's mean to six digits of its own size or of the spread, whichever is coarser (a mean of
+    -5.6e-8 beside sigma = 44721 prints as 0).
 
-    >>> law_lines({"mu": 0.0, "sigma2": 40.0})
-    ['  law         normal, mean mu = 0, variance sigma^2 = 40']
+    >>> fmt_mean(-5.55e-08, 44721.0), fmt_mean(22.2222222, 26.4), fmt_mean(231049060.1866, 1e4)
+    ('0', '22.2222', '231049060.19')
+    """
+    unit = 1e-6 * sd
+    if unit > 0 and abs(mu) < unit:
+        return "0"
+    digits = 6 if not sd > 0 else min(17, max(6, math.ceil(math.log10(abs(mu) / sd)) + 6))
+    return f"{float(mu):.{digits}g}"
+
+
+def law_lines(params: dict, s_text: str | None = None) -> list[str]:
+    """The limit law's parameters (as :attr:`SpectralDistribution.params` names them), to six
+    digits: they describe the reference law; the bounds below are the certified numbers.
+
+    >>> law_lines({"mu": -5.6e-11, "sigma2": 40.0})
+    ['  law         normal, mean mu = 0, variance sigma^2 = 40 (6 digits)']
     """
     if not params:
         return []
     if "mu" in params:
-        return [f"  {'law':<11} normal, mean mu = {params['mu']:.12g}, variance sigma^2 = "
-                f"{params['sigma2']:.12g}"]
+        sd = math.sqrt(max(params["sigma2"], 0.0))
+        return [f"  {'law':<11} normal, mean mu = {fmt_mean(params['mu'], sd)}, variance "
+                f"sigma^2 = {params['sigma2']:.6g} (6 digits)"]
     s = s_text or "s"
+    sd = math.sqrt(max(params["log_sigma2"], 0.0))
     return [
-        f"  {'law':<11} log|{s}| normal given {s} != 0: mean {params['log_mu']:.12g}, variance "
-        f"{params['log_sigma2']:.12g}",
-        f"  {'':<11} exact point mass at {s} = 0: {params['zero_mass']:.12g}; shares {s} > 0: "
-        f"{params['positive_share']:.12g}, {s} < 0: {params['negative_share']:.12g}"]
+        f"  {'law':<11} log|{s}| normal given {s} != 0: mean {fmt_mean(params['log_mu'], sd)}, "
+        f"variance {params['log_sigma2']:.6g} (6 digits)",
+        f"  {'':<11} point mass at {s} = 0: {params['zero_mass']:.6g}; shares {s} > 0: "
+        f"{params['positive_share']:.6g}, {s} < 0: {params['negative_share']:.6g}"]
 
 
 def answer_text(ans: Answer, *, head: int | None = None, full: bool = False,
@@ -239,5 +257,5 @@ def plain_share(m: int | BigCount, order: int | BigCount) -> float:
     return float(fraction_of(m, order).mid())
 
 
-__all__ = ["SUMMARY_AT", "SUMMARY_ENDS", "answer_text", "atom_lines", "law_lines", "plain_share",
-           "share_text", "truncated_json", "vertices"]
+__all__ = ["SUMMARY_AT", "SUMMARY_ENDS", "answer_text", "atom_lines", "fmt_mean", "law_lines",
+           "plain_share", "share_text", "truncated_json", "vertices"]

@@ -128,7 +128,8 @@ class Sweep:
         lines.append("")
         for i, key in enumerate(groups, 1):
             more = alike[key] - 1
-            tail = f" (and {more} more points alike, with their own numbers; --json lists each)" \
+            points = "1 more point" if more == 1 else f"{more} more points"
+            tail = f" (and {points} alike, with their own numbers; --json lists each)" \
                 if more else ""
             lines.append(f"  [{i}] {first[key]}{tail}")
         return "\n".join(lines) + "\n"
