@@ -145,7 +145,7 @@ def test_latex_needs_symbolic(capsys):
 # ------------------------------------------------------------------------ --help
 
 
-COMMANDS = ("spectrum", "top", "cdf", "count", "quantile", "moments", "invariants", "plot")
+COMMANDS = ("spectrum", "top", "cdf", "count", "quantile", "moments", "invariants", "plot", "sweep")
 
 
 @pytest.mark.timeout(20)
@@ -153,7 +153,8 @@ COMMANDS = ("spectrum", "top", "cdf", "count", "quantile", "moments", "invariant
 def test_help_documents_positionals_grammar_and_examples(command, capsys):
     assert main([command, "--help"]) == 0
     out = capsys.readouterr().out
-    positionals = {"cdf": ["X"], "count": ["A", "B"], "quantile": ["Q"]}.get(command, [])
+    positionals = {"cdf": ["X"], "count": ["A", "B"], "quantile": ["Q"],
+                   "sweep": ["QUANTITY", "OVER"]}.get(command, [])
     for name in ["EXPR", *positionals]:
         # every positional is listed with a help line of its own
         assert any(line.strip().startswith(name + " ") for line in out.splitlines()), name
@@ -188,3 +189,118 @@ def test_every_help_example_runs(example, tmp_path, monkeypatch, capsys):
     code = main(shlex.split(example)[1:])
     _, err = capsys.readouterr()
     assert code == 0, (example, err)
+
+
+# ------------------------------------------------------------ every option
+
+
+def test_version(capsys):
+    assert main(["--version"]) == 0
+    assert capsys.readouterr().out.startswith("powerspec ")
+
+
+def test_json_integers_are_numbers_up_to_4000_digits_then_strings(capsys):
+    code, out, _ = run(["top", "cart(K(2)^14000)", "-m", "2", "--json"], capsys)
+    assert code == 0
+    data = json.loads(out)  # Python's default parser reads every number back
+    # source: the 14000-cube has 2^14000 vertices (4215 digits, beyond 4000: a string) and its
+    # largest eigenvalues 14000 and 13998 have multiplicities C(14000, 0) = 1 and
+    # C(14000, 1) = 14000 (textbook), small integers: JSON numbers
+    assert data["order"] == str(2**14000)
+    assert data["atoms"] == [[14000, 1], [13998, 14000]]
+
+
+def test_symbolic_json_keeps_the_contract_keys(capsys):
+    import sympy
+
+    k = sympy.Symbol("k")
+    for argv, side in ((["top", "cart(K(2)^k)"], k), (["top", "cart(K(2)^k)", "--bottom"], -k)):
+        code, out, _ = run([*argv, "--symbolic", "--json"], capsys)
+        data = json.loads(out)
+        # source: the k-cube's extreme eigenvalues are +-k, each once (textbook)
+        assert code == 0 and sympy.sympify(data["atoms"][0][0]) == side
+        assert sympy.sympify(data["atoms"][0][1]) == 1
+    code, out, _ = run(["invariants", "cart(K(2)^k)", "--symbolic", "--json"], capsys)
+    inv = json.loads(out)["invariants"]
+    assert sympy.sympify(inv["spectral_radius"]["value"]) == k
+    assert inv["spectral_radius"]["lower"] == inv["spectral_radius"]["upper"]
+    code, out, _ = run(["spectrum", "cart(K(2)^k)", "--symbolic", "--json"], capsys)
+    atom = json.loads(out)["atoms"][0]
+    # source: eigenvalue k - 2j with multiplicity C(k, j) (textbook)
+    j = sympy.Symbol("j")
+    assert sympy.simplify(sympy.sympify(atom[0]) - (k - 2 * j)) == 0
+    assert sympy.sympify(atom[1]) == sympy.binomial(k, j)
+
+
+def test_tol_and_method_bound_the_binomial_cdf(capsys):
+    import math as m
+
+    code, out, _ = run(["cdf", "cart(K(2)^100)", "0.5", "--tol", "0.01", "--method", "bracket",
+                        "--json"], capsys)
+    data = json.loads(out)
+    # source: the 100-cube's eigenvalues 100 - 2j with multiplicity C(100, j) (textbook); the
+    # share <= 0.5 is sum_{j >= 50} C(100, j) / 2^100, by Python integers
+    truth = sum(m.comb(100, j) for j in range(50, 101)) / 2**100
+    assert code == 0 and data["lower"] <= truth <= data["upper"]
+    assert data["upper"] - data["lower"] <= 0.01 and data["inputs"]["tier"] == "bracket"
+
+
+@pytest.mark.parametrize("command,extra", [("count", ["-1", "1"]), ("quantile", ["0.5"])])
+def test_count_and_quantile_options(command, extra, capsys):
+    code, out, _ = run([command, "cart(K(2)^6)", *extra, "--method", "exact", "--matrix",
+                        "laplacian", "--degrees", "out", "--limit", "100", "--json"], capsys)
+    data = json.loads(out)
+    assert code == 0 and data["matrix"].startswith("laplacian")
+    # source: the 6-cube's Laplacian eigenvalues 2j with multiplicity C(6, j) (textbook): one
+    # eigenvalue (0) lies in [-1, 1]; the median (inf{x: F(x) >= 1/2}) is 6, since
+    # F(4) = 22/64 < 1/2 <= F(6) = 42/64
+    assert data["estimate"] == (1 if command == "count" else 6)
+
+
+def test_degrees_in_for_directed_factors(capsys):
+    code, out, _ = run(["spectrum", "cart(dicycle(3)^2)", "--matrix", "laplacian", "--degrees", "in",
+                        "--json"], capsys)
+    data = json.loads(out)
+    # source: the directed 3-cycle has in- and out-degree 1, so L = I - A with eigenvalues
+    # 1 - omega^j; sums over the Cartesian square: 0 once (a connected in-regular graph)
+    assert code == 0 and data["inputs"]["degrees"] == "in"
+    assert [0, 1] in data["atoms"]
+
+
+def test_per_vertex_moments_and_heat_time(capsys):
+    code, out, _ = run(["moments", "cart(K(2)^3)", "--order", "2", "--per-vertex", "--json"], capsys)
+    # source: tr(A)/n = 0 and tr(A^2)/n = average degree = 3 for the 3-cube (textbook)
+    assert code == 0 and json.loads(out)["moments"] == [[1, 0], [2, 3]]
+    code, out, _ = run(["invariants", "cart(K(2)^3)", "--time", "2", "--degrees", "out", "--json"],
+                       capsys)
+    heat = json.loads(out)["invariants"]["heat_trace"]
+    # source: Laplacian eigenvalues 2j with multiplicity C(3, j), so sum e^(-t 2j) C(3, j) =
+    # (1 + e^(-2t))^3 by the binomial theorem; at t = 2 that is (1 + e^-4)^3
+    want = (1 + math.exp(-4)) ** 3
+    assert heat["lower"] <= want * (1 + 1e-15) and want * (1 - 1e-15) <= heat["upper"]
+
+
+@pytest.mark.timeout(60)
+def test_scheduler_unreachable_is_a_user_error(capsys):
+    # port 1 on this machine's loopback: nothing listens there
+    code, _, err = run(["spectrum", "direct(P(3)^6)", "--matrix", "laplacian", "--scheduler",
+                        "tcp://127.0.0.1:1", "--quiet"], capsys)
+    assert code == 2 and "cannot reach the Dask scheduler" in err and err.count("\n") == 1
+
+
+@pytest.mark.parametrize("argv,phrase", [
+    (["top", "cart(C(5)^2)", "--workers", "0"], "worker processes"),
+    (["spectrum", "cart(C(5)^2)", "--scheduler", "127.0.0.1"], "scheduler address"),
+    (["spectrum", "cart(C(5)^2)", "--head", "0"], "rows printed"),
+    (["top", "cart(C(5)^2)", "--method", "estimate"], "--matrix laplacian"),
+    (["cdf", "cart(C(5)^2)", "0", "--tol", "2"], "out of range"),
+])
+def test_option_ranges(argv, phrase, capsys):
+    code, out, err = run(argv, capsys)
+    assert code == 2 and out == "" and phrase in err and err.count("\n") == 1
+
+
+def test_demo_output_file(tmp_path, capsys):
+    target = tmp_path / "demo.txt"
+    code, out, _ = run(["demo", "--output", str(target)], capsys)
+    assert code == 0 and out == "" and "22-cube" in target.read_text()
