@@ -13,7 +13,8 @@
 ``method='auto'`` picks among the tiers that meet the wanted width (``tol``,
 or :data:`DEFAULT_TOL` when none is given) by a cost model (see
 :meth:`_Query.choose`): the most accurate tier whose estimated cost is
-within :data:`COST_RATIO` of the cheapest one that meets the width.  With
+within :data:`COST_RATIO` (less the estimates' spread, :data:`COST_SPREAD`) of
+the cheapest one that meets the width.  With
 ``tol`` given and no tier meeting it, SizeLimitError; without ``tol`` the law
 answers.  The chosen tier is named in ``Answer.method``.
 
@@ -74,6 +75,9 @@ DEFAULT_TOL = 1e-3
 
 COST_RATIO = 10.0
 """``auto`` never takes a tier costing more than this times the cheapest one meeting the width."""
+
+COST_SPREAD = 3.0
+"""Measured spread of the cost estimates (estimate / measured seconds, benchmarks/distribution.py)."""
 
 OUT_SLACK = 1e-12
 """Relative widening of bracket/law bounds for the rounding of their final sums."""
@@ -307,10 +311,15 @@ class _Query:
         return MulBracketTier(parts, tol, self.grid_limit, self.label, plan_only)
 
     def exact_cost(self, evaluations: int = 1) -> float:
-        """Estimated seconds of the exact tier (measured: ~2 us per candidate atom, 1 ms fixed)."""
+        """Estimated seconds of the exact tier (measured: ~3.5 us per candidate atom, 1 ms fixed).
+
+        The per-atom cost covers the spectrum and the exact tier's three sorted
+        views with exact cumulative counts (cart(C(5)^1000): 5 * 10^5 atoms,
+        3.8 s measured; cart(C(7)^200): 1.4 * 10^6 atoms, 5.5 s).
+        """
         bound = _engine_bound(self.eng, self.node, self.matrix)
         bits = max(1, bit_length(self.node.order))
-        return 1e-3 + 2e-6 * bound * (1 + bits / 2048) + 2e-5 * evaluations
+        return 1e-3 + 3.5e-6 * bound * (1 + bits / 2048) + 2e-5 * evaluations
 
     def choose(self, width_of, evaluations: int = 1):
         """Pick the tier; ``width_of(tier)`` is the bound width of the query under that tier.
@@ -318,8 +327,10 @@ class _Query:
         Candidates are the tiers whose width meets ``tol`` (DEFAULT_TOL when not
         given): exact (width measured once built), bracket (width predicted
         from its grid plan, measured once built), law (measured: it is cheap).
-        Among those costing at most COST_RATIO times the cheapest, the narrowest
-        is built first; one that turns out wider than ``tol`` is passed over.
+        Among those estimated at most COST_RATIO / COST_SPREAD times the cheapest
+        (so that, with the estimates' measured spread, none costs COST_RATIO
+        times the cheapest), the narrowest is built first; one that turns out
+        wider than ``tol`` is passed over.
         Costs: :meth:`exact_cost`, the bracket plan's FFT size, the law's
         per-evaluation cost (all measured on this project's 2-core machine,
         see benchmarks/distribution.py); ``evaluations`` is how many CDF
@@ -358,7 +369,7 @@ class _Query:
         widths = {"law": w_law}  # of the tiers tried
         while meet:
             cheapest = min(v[0] for v in meet.values())
-            name = min((k for k, v in meet.items() if v[0] <= COST_RATIO * cheapest),
+            name = min((k for k, v in meet.items() if v[0] <= COST_RATIO / COST_SPREAD * cheapest),
                        key=lambda k: (meet[k][1], rank[k]))
             if name == "law":
                 return law
@@ -448,8 +459,6 @@ class _Query:
             hi = min(mpmath.mpf(1), max(mpmath.mpf(0), tier.log_upper(float(t[0] + d[0])))
                      * (1 + 2 * OUT_SLACK))
         return e, lo, hi
-
-
 
 
 def _answer(query, q: _Query, tier, est, lo, hi, inputs):

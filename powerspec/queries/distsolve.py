@@ -116,6 +116,45 @@ def _widen(v, direction: int):
     return v + direction * abs(v) * mpmath.mpf(1e-12)
 
 
+NEAR_ALPHA = 1e-13
+"""Multiplicative rules: |s| below this share of |alpha / beta| leaves x = alpha + beta s at alpha."""
+
+
+def _settle_near_alpha(curve, comp, branch, tgt, fixed, a, b, fa, fb):
+    """Brackets whose root lies where x(y) no longer moves (|beta s| <= NEAR_ALPHA |alpha|).
+
+    There the search in log|s| would bisect a long flat stretch for nothing: one
+    evaluation at the edge y* of that region per element decides whether the
+    root lies inside it (then the bracket ends at y* and is settled: both ends
+    give x within NEAR_ALPHA |alpha| of alpha) or outside (it starts at y*).
+    Brackets are updated in place (a and b stay evaluated points); returns the
+    mask of settled elements.
+    """
+    settled = np.zeros(a.shape, dtype=bool)
+    if curve.alpha == 0:
+        return settled
+    ys = math.log(NEAR_ALPHA * abs(curve.alpha) / abs(curve.beta)) - curve.umin
+    if not ys > 0:
+        return settled
+    y = np.where(branch > 0, ys, -ys)
+    free = np.isnan(fixed)
+    # brackets wholly inside the flat region are settled as they are
+    settled |= free & np.where(branch > 0, b <= y, a >= y)
+    sel = free & (a < y) & (y < b)
+    if not sel.any():
+        return settled
+    idx = np.flatnonzero(sel)
+    vals = np.stack(curve(y[idx], branch[idx]))  # (3, elements)
+    fy = vals[comp[idx], np.arange(idx.size)]
+    ge = fy >= tgt[idx]
+    up, low = idx[ge], idx[~ge]
+    b[up], fb[up] = y[up], fy[ge]
+    a[low], fa[low] = y[low], fy[~ge]
+    settled[up[branch[up] > 0]] = True  # [a, y*] lies in the flat region: x(a) ~ x(b) ~ alpha
+    settled[low[branch[low] < 0]] = True  # [-y*, b] likewise
+    return settled
+
+
 def quantiles(query, tier, levels: list[Fraction]):
     """Lists (estimates, lower bounds, upper bounds) of the quantiles at the exact ``levels``.
 
@@ -160,7 +199,9 @@ def quantiles(query, tier, levels: list[Fraction]):
                 a[i], b[i], fa[i], fb[i] = pts[-1], pts[-1], row[-1], row[-1]
             else:
                 a[i], b[i], fa[i], fb[i] = pts[k - 1], pts[k], row[k - 1], row[k]
-    open_ = np.isnan(fixed) & (a < b)
+    settled = _settle_near_alpha(curve, comp, branch, tgt, fixed, a, b, fa, fb) \
+        if curve.mode != "add" else np.zeros(m, dtype=bool)
+    open_ = np.isnan(fixed) & (a < b) & ~settled
     if open_.any():
         idx = np.flatnonzero(open_)
 

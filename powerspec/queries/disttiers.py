@@ -35,6 +35,7 @@ import numpy as np
 
 from powerspec.errors import NotExactError, SizeLimitError
 from powerspec.tiers.bracket import AddBracket, MulBracket, plan_cost, spacing
+from powerspec.tiers.lawparity import WINDOW_CAP, ParityWindow, window_points
 from powerspec.tiers.lawproduct import BinomialWindow, ProductLaw
 from powerspec.tiers.laws import BERRY_ESSEEN_IID, BERRY_ESSEEN_NONIID, TINY, SumLaw
 
@@ -369,14 +370,22 @@ class MulLaw:
             r_neg = float(p[b].sum() / (p[a].sum() + p[b].sum()))
             lv = np.abs(np.log(np.abs(v[v != 0])))
             mean_round = k * 4 * (lv.size + 2) * EPS * float(np.max(lv, initial=1.0))
-            win = BinomialWindow(k, r_neg, _log_stats(v, p, a), _log_stats(v, p, b),
-                                 rest if indep else None, q_rest,
-                                 mean_round + (0.0 if indep else rest.slack))
+            stats = (_log_stats(v, p, a), _log_stats(v, p, b))
+            if window_points(k, r_neg) <= WINDOW_CAP:
+                win = BinomialWindow(k, r_neg, *stats, rest if indep else None, q_rest,
+                                     mean_round + (0.0 if indep else rest.slack))
+                how = ("mixture over the number of negative factors of log-normal laws of |s| "
+                       f"({win.nblocks} blocks, quadrature error <= {win.quad_err:.1g}), exact "
+                       "zero mass and sign parity")
+            else:  # too many j to enumerate: the parity term is bounded instead (lawparity)
+                nzv = v != 0
+                win = ParityWindow(k, r_neg, *stats, np.log(np.abs(v[nzv])), p[nzv] / p[nzv].sum(),
+                                   indep, q_rest, rel_slack, rest if indep else None)
+                how = ("log-normal law of |s| pooled over the signs, exact zero mass; the sign "
+                       f"parity term bounded by {win.quad_err:.2g} (Abel summation over the "
+                       "unimodal binomial law of the number of negative factors)")
             self.law = ProductLaw(zero, window=win, log_nonzero=log_nz)
             eps = win.eps_max
-            how = ("mixture over the number of negative factors of log-normal laws of |s| "
-                   f"({win.nblocks} blocks, quadrature error <= {win.quad_err:.1g}), exact zero "
-                   "mass and sign parity")
         if exact is None:
             self.e, self.p, self.erel = np.ones(1), np.ones(1), np.zeros(1)
         else:
