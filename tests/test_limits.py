@@ -19,6 +19,7 @@ from decimal import Decimal
 
 import mpmath
 import pytest
+from flint import fmpz
 
 from powerspec.interfaces import cli
 from powerspec.interfaces.cli import main
@@ -455,3 +456,19 @@ def test_forked_workers_die_quietly_on_sigterm(capfd):
         proc.join()
     assert proc.exitcode == -signal.SIGTERM
     assert "Traceback" not in capfd.readouterr().err
+
+
+@pytest.mark.timeout(WORK)
+def test_direct_power_with_a_huge_zero_count_answers(capsys):
+    k = 10**6
+    out = assert_answered(run(["top", f"direct(P(3)^{k})", "-m", "3", "--json"], capsys))
+    atoms = json.loads(out)["atoms"]
+    # source: P(3) has eigenvalues sqrt 2, 0, -sqrt 2 (textbook 2cos(pi j/4)); the direct power's
+    # non-zero eigenvalues are +-2^(k/2), 2^(k-1) each (sign parity), and 0 has multiplicity
+    # 3^k - 2^k (every product with a zero factor); the zero count written out with exact ints
+    assert [a[0] for a in atoms][1] == 0
+    half = str(fmpz(2) ** (k - 1))  # FLINT writes the digits (Python caps str(int) at 4300)
+    assert atoms[0][1] == half == atoms[2][1]
+    assert atoms[1][1] == "3^1000000 - " + str(fmpz(2) ** k)
+    code, text, err = run(["top", f"direct(P(3)^{k})", "-m", "3"], capsys)
+    assert code == 0 and "(an integer of 477122 digits)" in text  # 3^k has 477122 digits

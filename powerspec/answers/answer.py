@@ -32,7 +32,7 @@ import numpy as np
 from flint import acb, arb, fmpq
 
 from powerspec.errors import InputError
-from powerspec.numbers.counts import BigCount
+from powerspec.numbers.counts import BigCount, to_arb
 from powerspec.numbers.digits import ball_text, int_digits, int_text, json_text, radius_text
 from powerspec.numbers.hp import working
 from powerspec.spectra.spectrum import Spectrum
@@ -299,9 +299,19 @@ def dump_json(obj: Any) -> str:
 
 
 def count_text(n: Any) -> str:
-    """An exact count for text: in full up to 40 digits, else leading digits and the length."""
+    """An exact count for text: in full up to 40 digits, else leading digits and the length.
+
+    A factored count (BigCount) prints its exact form while that is short, else
+    its certified leading digits and length (``--json`` keeps the exact form).
+
+    >>> count_text(BigCount.power(3, 10**6) - BigCount.power(2, 10**6))
+    '3^1000000 - 2^1000000'
+    >>> count_text(BigCount.power(3, 10**6) - 2**(10**6))    # 3^k - 2^k, 2^k written out
+    '1.79771011668e+477121 (an integer of 477122 digits)'
+    """
     if isinstance(n, BigCount):
-        return str(n)
+        exact = str(n)
+        return exact if len(exact) <= TEXT_DIGITS else _big_count_text(n)
     n = int(n)
     if n.bit_length() <= 3.32 * TEXT_DIGITS:
         return str(n)
@@ -309,6 +319,19 @@ def count_text(n: Any) -> str:
     with mpmath.workprec(80):
         lead = mpmath.mpf(n) / mpmath.mpf(10) ** (d - 1)
     return f"{mpmath.nstr(lead, 12, strip_zeros=False)}e+{d - 1} (an integer of {d} digits)"
+
+
+def _big_count_text(n: BigCount) -> str:
+    """Leading digits of a huge positive count from a certified ball (digits the ball covers)."""
+    with working():
+        b = to_arb(n)
+        lg = b.log() / arb(10).log()
+        lo, hi = (int(e.floor().unique_fmpz()) for e in (lg.lower(), lg.upper()))
+        if lo != hi:  # the ball straddles a power of ten: say only the length range
+            return f"an integer of {lo + 1} or {hi + 1} digits (exact form in --json)"
+        lead = b / arb(10) ** lo
+        text = lead.str(12, radius=False, more=False)
+    return f"{text}e+{lo} (an integer of {lo + 1} digits)"
 
 
 def value_text(v: Any) -> str:

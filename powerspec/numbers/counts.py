@@ -23,7 +23,7 @@ import math
 from collections.abc import Iterable
 from fractions import Fraction
 
-from flint import arb
+from flint import arb, fmpz
 
 from powerspec.errors import SizeLimitError
 from powerspec.numbers.hp import working
@@ -130,13 +130,13 @@ class BigCount:
             c = v * den
             sign = "-" if c < 0 else "+"
             body = " * ".join(f"{p}^{e}" if e != 1 else str(p) for p, e in key)
-            c = abs(c)
-            text = (str(c) if not body else body if c == 1 else f"{c} * {body}")
+            c = _int_digits_text(abs(c))
+            text = (c if not body else body if c == "1" else f"{c} * {body}")
             parts.append((sign, text))
         out = ("-" if parts and parts[0][0] == "-" else "") + parts[0][1] if parts else "0"
         for sign, text in parts[1:]:
             out += f" {sign} {text}"
-        return f"({out})/{den}" if den != 1 else out
+        return f"({out})/{_int_digits_text(den)}" if den != 1 else out
 
     __repr__ = __str__
 
@@ -182,8 +182,18 @@ def _canonical(d: dict[int, int], c: Fraction) -> tuple[tuple, Fraction]:
     return tuple(sorted((p, e) for p, e in d.items() if e)), c
 
 
+def _int_digits_text(c: int | Fraction) -> str:
+    """Decimal digits of a whole number of any length (FLINT's conversion: no digit cap)."""
+    c = int(c)
+    return str(c) if c.bit_length() < 3000 else str(fmpz(c))
+
+
 def _term_log2(key: tuple, c: Fraction) -> float:
-    return sum(e * math.log2(p) for p, e in key) + math.log2(abs(c))
+    # log2 of numerator and denominator apart: math.log2 takes ints of any size, but a
+    # Fraction goes through float and overflows past 2^1024
+    c = Fraction(c)
+    return (sum(e * math.log2(p) for p, e in key) + math.log2(abs(c.numerator))
+            - math.log2(c.denominator))
 
 
 def _settle(terms: dict[tuple, Fraction]) -> int | BigCount:
