@@ -67,6 +67,9 @@ def share_text(part: Any, whole: Any) -> str:
 
     >>> share_text(6, 16), share_text(1, 2), share_text(2**80, 3**60)
     ('3/8 (0.375)', '1/2', '0.0000285183483727')
+    >>> share_text(3**60 - 2**70, 3**60)                # 2^70 / 3^60 = 2.78...e-8
+    '1 - 2.78499495827e-8'
+
     """
     if isinstance(part, int) and isinstance(whole, int):
         f = Fraction(part, whole)
@@ -76,6 +79,9 @@ def share_text(part: Any, whole: Any) -> str:
         if len(str(f.numerator)) + len(str(f.denominator)) <= 24:
             return f"{f} ({float(f):.6g})"
     ball = fraction_of(part, whole)
+    if ball > 0.5 and ball.mid() > 1 - 1e-6:
+        # a share next to 1 would print as 1.000...: write its distance to 1 instead
+        return "1 - " + share_text(whole - part, whole)
     return ball_text(arb(ball.mid(), max(float(ball.rad()), abs(float(ball.mid())) * 1e-12)))[0]
 
 
