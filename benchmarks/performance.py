@@ -1,0 +1,317 @@
+"""Every row of the performance table, both sides timed alike (python benchmarks/performance.py).
+
+Timing rules: the median of REPEATS runs on both sides of every ratio; "in-process" times a call
+with time.perf_counter after one warm-up call; "process" times a fresh interpreter with
+subprocess.run (start-up included).  Peak memory is the child's ru_maxrss.  Rows:
+
+1. law-tier quantiles (direct(K(3)^k), strong(P(3)^k)) at k = 10^9 ... 10^18: time, peak memory
+   and growth with k; the CLI against a bare ``python -c "import numpy, scipy.special, mpmath"``;
+2. cdf / count / quantile from the CLI against the same bare start-up; ``auto`` against every
+   tier that meets the default width (ratio of auto's time to the cheapest meeting one);
+3. the bracket tier, cart(C(5)^k), tol 1e-3, k = 10^2 ... 10^4;
+4. top 'direct(P(4)^1000000)' -m 5 and 5. invariants 'direct(motif()^1000000)', process memory;
+6. the exact spectrum of cart(K(2)^k) against python-flint's (1 + x)^k (the binomial row: the
+   multiplicities alone, the physical limit) and, where it can run, against an explicit build
+   (scipy.sparse.kron in CSR with explicit zeros eliminated, then numpy eigvalsh);
+7. / 8. the share of text output in the Q_10^5 run, the JSON output of Q_30000 against its text,
+   and decimal conversion of large ints (str, python-flint, gmpy2) -- plus the measured gain of
+   the formatting change proposed for answers/answer.py (a prototype defined here, not used by
+   the package).
+
+Dependencies beyond the package's own: none (gmpy2 is only measured, when installed).
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import statistics
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT))  # run from a checkout
+
+import powerspec as ps  # noqa: E402
+from powerspec.queries.distribution import cdf, quantile  # noqa: E402
+
+REPEATS = 5
+PY = sys.executable
+BARE = [PY, "-c", "import numpy, scipy.special, mpmath"]
+
+
+def median_time(fn, repeats: int = REPEATS, warm: bool = True) -> float:
+    if warm:
+        fn()
+    ts = []
+    for _ in range(repeats):
+        t = time.perf_counter()
+        fn()
+        ts.append(time.perf_counter() - t)
+    return statistics.median(ts)
+
+
+def proc(args: list[str], repeats: int = REPEATS) -> tuple[float, float]:
+    """(median wall seconds, largest peak RSS in MiB) of a fresh interpreter running ``args``."""
+    ts, rss = [], 0.0
+    for _ in range(repeats):
+        code = ("import resource, subprocess, sys, time; t = time.perf_counter(); "
+                f"subprocess.run({args!r}, check=True, capture_output=True); "
+                "print(time.perf_counter() - t, "
+                "resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)")
+        out = subprocess.run([PY, "-c", code], check=True, capture_output=True, text=True)
+        t, m = out.stdout.split()
+        ts.append(float(t))
+        rss = max(rss, int(m) / 1024)
+    return statistics.median(ts), rss
+
+
+def cli(*args: str) -> list[str]:
+    return [PY, "-m", "powerspec", *args]
+
+
+def fmt(t: float) -> str:
+    return "-" if t != t else (f"{t * 1e3:.1f} ms" if t < 1 else f"{t:.2f} s")
+
+
+def row(*cols, widths=(44, 12, 12, 12, 22)):
+    print("  " + "  ".join(str(c).ljust(w) if i == 0 else str(c).rjust(w)
+                           for i, (c, w) in enumerate(zip(cols, widths, strict=False))))
+
+
+# ------------------------------------------------------------------ 1. law tier
+def law_tier(bare: float) -> None:
+    print("\n1. law-tier quantile (in-process median of 5; memory: peak RSS of a fresh process)")
+    row("expression, level", "in-process", "peak MiB", "target", "")
+    for base in ("direct(K(3)^{k})", "strong(P(3)^{k})"):
+        growth = []
+        for k in (10**9, 10**12, 10**18):
+            e = base.format(k=k)
+            for lv in (0.3, 0.5):
+                t = median_time(lambda e=e, lv=lv: quantile(e, lv, method="law"))
+                if lv == 0.3:
+                    growth.append(t)
+                code = ("import resource; from powerspec.queries.distribution import quantile; "
+                        f"quantile({e!r}, {lv}, method='law'); "
+                        "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)")
+                out = subprocess.run([PY, "-c", code], capture_output=True, text=True, cwd=ROOT)
+                mem = int(out.stdout.split()[-1]) / 1024 if out.returncode == 0 else float("nan")
+                row(f"{e} q={lv}", fmt(t), f"{mem:.0f}", "< 50 ms" if k == 10**9 else "")
+        print(f"    growth {base.format(k='k')}, q=0.3: k = 10^9 -> 10^18 x{growth[-1] / growth[0]:.2f}")
+    for e in ("direct(K(3)^1000000000)", "strong(P(3)^1000000000)"):
+        t, _ = proc(cli("quantile", e, "0.5"))
+        row(f"CLI quantile {e} 0.5", fmt(t), "", f"{t / bare:.2f}x bare", "target <= 2.5x")
+
+
+# ------------------------------------------------------- 2. CLI start-up and auto
+def startup_and_auto(bare: float) -> None:
+    print(f"\n2. CLI against bare start-up ({fmt(bare)}: python -c 'import numpy, scipy.special, "
+          "mpmath'; median of 5 process wall times)")
+    for args in (("cdf", "cart(C(5)^1000000)", "10"), ("count", "cart(C(5)^1000000)", "0", "10"),
+                 ("quantile", "cart(C(5)^1000)", "0.3"), ("cdf", "cart(C(5)^100)", "0", "--tol",
+                                                          "0.01")):
+        t, mem = proc(cli(*args))
+        row("powerspec " + " ".join(args), fmt(t), f"{mem:.0f} MiB", f"{t / bare:.2f}x",
+            "target <= 2.5x")
+    t, _ = proc([PY, "-c", "import powerspec.interfaces.cli"])
+    row("import powerspec.interfaces.cli", fmt(t), "", f"{t / bare:.2f}x", "")
+    out = subprocess.run([PY, "-X", "importtime", "-c", "import powerspec.interfaces.cli"],
+                         capture_output=True, text=True).stderr
+    rows = []
+    for line in out.splitlines():
+        parts = line[len("import time:"):].split("|") if line.startswith("import time:") else []
+        if len(parts) == 3 and parts[1].strip().isdigit():
+            rows.append((int(parts[1]), int(parts[0]), parts[2].strip()))
+    print("    heaviest imports of the CLI (cumulative ms, self ms):")
+    for cum, own, name in sorted(rows, reverse=True)[:10]:
+        print(f"      {cum / 1e3:8.1f} {own / 1e3:8.1f}  {name}")
+    print("\n   auto against every tier meeting the default width 1e-3 (in-process, median of 3)")
+    row("query", "auto", "cheapest", "auto/cheap", "auto picked")
+    for fn, e, pt in ((quantile, "cart(C(5)^1000)", (0.3,)), (quantile, "cart(C(5)^300)", (0.3,)),
+                      (cdf, "cart(C(7)^200)", (1.0,)), (cdf, "cart(K(2)^10000)", (0.0,)),
+                      (quantile, "strong(P(3)^300)", (0.3,)), (cdf, "cart(C(5)^30)", (1.0,))):
+        times = {}
+        for m in ("exact", "bracket", "law"):
+            try:
+                fn(e, *pt, method=m)
+            except ps.PowerspecError:
+                continue
+            w = 0.0 if m == "exact" else _cdf_width(fn, e, pt, m)
+            if w <= 1e-3:
+                times[m] = median_time(lambda m=m, fn=fn, e=e, pt=pt: fn(e, *pt, method=m), 3,
+                                       warm=False)
+        ta = median_time(lambda fn=fn, e=e, pt=pt: fn(e, *pt), 3, warm=False)
+        picked = fn(e, *pt).method.split(":")[0]
+        cheap = min(times.values()) if times else float("nan")
+        row(f"{fn.__name__} {e} {pt[0]}", fmt(ta), fmt(cheap), f"{ta / cheap:.1f}x", picked)
+
+
+def _cdf_width(fn, e, pt, m) -> float:
+    if fn is cdf:
+        a = cdf(e, *pt, method=m)
+        return float(a.upper) - float(a.lower)
+    x = float(quantile(e, *pt, method=m).estimate)
+    a = cdf(e, x, method=m)
+    return float(a.upper) - float(a.lower)
+
+
+# --------------------------------------------------------------------- 3. bracket
+def bracket_tier() -> None:
+    print("\n3. bracket tier, cart(C(5)^k) non-lattice, cdf at 1, tol 1e-3 (in-process, median of 3)")
+    row("k", "time", "width", "", "target: 10^4 within 60 s")
+    for k in (100, 1000, 10**4):
+        e = f"cart(C(5)^{k})"
+        a = cdf(e, 1.0, method="bracket", tol=1e-3)
+        t = median_time(lambda e=e: cdf(e, 1.0, method="bracket", tol=1e-3), 3, warm=False)
+        row(k, fmt(t), f"{a.upper - a.lower:.2e}")
+
+
+# ------------------------------------------------------------ 4. / 5. top, invariants
+def extremes() -> None:
+    print("\n4./5. process wall time and peak memory (median of 3; target < 1 s in-process, < 400 MiB)")
+    from powerspec.queries.invariants import invariants
+    from powerspec.queries.planner import top
+    t1 = median_time(lambda: top("direct(P(4)^1000000)", 5), 3)
+    t2 = median_time(lambda: invariants("direct(motif()^1000000)"), 3)
+    for label, args, t in (("top 'direct(P(4)^1000000)' -m 5", ("top", "direct(P(4)^1000000)", "-m",
+                                                                 "5"), t1),
+                           ("invariants 'direct(motif()^1000000)'",
+                            ("invariants", "direct(motif()^1000000)"), t2)):
+        tp, mem = proc(cli(*args), 3)
+        row(label, f"{fmt(t)} in", f"{fmt(tp)} proc", f"{mem:.0f} MiB")
+
+
+# ------------------------------------------------------------------ 6. Q_k exact
+def hypercube() -> None:
+    import scipy.sparse as sp
+    from flint import fmpz_poly
+    print("\n6. exact spectrum of cart(K(2)^k) against python-flint (1 + x)^k (in-process, median of 5)")
+    row("k", "powerspec", "flint row", "ratio", "target <= 1.5x (k >= 10^3)")
+    prev = None
+    for k in (10, 100, 1000, 10**4, 10**5):
+        e = f"cart(K(2)^{k})"
+        r = REPEATS if k < 10**5 else 3
+        t = median_time(lambda e=e: ps.spectrum(e), r)
+        f = median_time(lambda k=k: fmpz_poly([1, 1]) ** k, r)
+        grow = f"  x{t / prev:.1f} per 10x k" if prev else ""
+        prev = t
+        row(k, fmt(t), fmt(f), f"{t / f:.1f}x", grow)
+    # the explicit baseline in CSR: kron sums with explicit zeros eliminated, then eigvalsh
+    a = sp.csr_array(np.array([[0.0, 1.0], [1.0, 0.0]]))
+
+    def explicit(k):
+        m = a
+        for _ in range(k - 1):
+            i1 = sp.identity(m.shape[0], format="csr")
+            m = (sp.kron(m, sp.identity(2, format="csr"), format="csr")
+                 + sp.kron(i1, a, format="csr")).tocsr()
+            m.eliminate_zeros()
+        return np.linalg.eigvalsh(m.toarray())
+
+    for k in (8, 10, 12):
+        te = median_time(lambda k=k: explicit(k), 3)
+        tp = median_time(lambda k=k: ps.spectrum(f"cart(K(2)^{k})"), 3)
+        row(f"k={k} explicit CSR + eigvalsh", fmt(tp), fmt(te), f"{te / tp:.0f}x faster", "")
+
+
+# ------------------------------------------------------------- 7. / 8. output
+def _count_text_fast(n: int, digits: int = 40) -> str:
+    """Prototype of the proposed answers/answer.count_text: leading digits from the top 192 bits.
+
+    log10(n) from the top bits in Arb (python-flint, 192-bit balls): the digit count and the 12
+    leading digits rounded as the current code rounds them, without converting n or forming
+    10^d; a ball that does not decide them falls back to exact integers.
+    """
+    from flint import arb, ctx
+    if n.bit_length() <= 3.32 * digits:
+        return str(n)
+    b = n.bit_length()
+    s = max(0, b - 192)
+    old = ctx.prec
+    ctx.prec = 192
+    try:
+        lg = (arb(n >> s).log() + s * arb(2).log()) / arb(10).log()
+        e = int(lg.floor().unique_fmpz() or 0)
+        if not (lg - e > 0 and lg - e < 1):
+            return _count_text_exact(n)
+        lead = (arb(10) ** (lg - e + 11)).mid()  # 10^(frac + 11): the 12 digits before rounding
+        q = int((lead + arb(0.5)).floor().unique_fmpz() or 0)
+        if abs(float(lead - arb(q)) + 0.5) < 1e-9 or abs(float(lead - arb(q)) - 0.5) < 1e-9:
+            return _count_text_exact(n)  # a tie in the 13th digit: decide exactly
+    finally:
+        ctx.prec = old
+    shown = e
+    if q >= 10**12:  # 9.999...e+e rounds up to 1.0e+(e+1); the digit count stays e + 1
+        q, shown = q // 10, e + 1
+    t = str(q)
+    return f"{t[0]}.{t[1:]}e+{shown} (an integer of {e + 1} digits)"
+
+
+def _count_text_exact(n: int) -> str:
+    from powerspec.answers.answer import count_text
+    return count_text(n)
+
+
+def output() -> None:
+    from powerspec.answers.answer import count_text
+    from powerspec.queries import planner
+    print("\n7./8. output formatting (in-process, one run each: they take seconds)")
+    for k in (30000, 100000):
+        t = time.perf_counter()
+        ans = planner.spectrum(f"cart(K(2)^{k})")
+        tc = time.perf_counter() - t
+        t = time.perf_counter()
+        text = ans.to_text()
+        tt = time.perf_counter() - t
+        row(f"Q_{k}: compute / text", fmt(tc), fmt(tt), f"{tt / (tc + tt):.0%} output",
+            "target <= 20%")
+        mults = [int(m) for m in ans.atoms.mult.tolist()]
+        t = time.perf_counter()
+        for m in mults:
+            count_text(m)
+        t_now = time.perf_counter() - t
+        t = time.perf_counter()
+        fast = [_count_text_fast(m) for m in mults]
+        t_new = time.perf_counter() - t
+        same = all(f == count_text(m) for f, m in zip(fast[::97], mults[::97], strict=True))
+        row(f"  count_text of the {len(mults)} multiplicities", fmt(t_now), fmt(t_new),
+            f"{t_now / t_new:.1f}x", f"same text: {same}")
+        if k == 30000:
+            t = time.perf_counter()
+            js = ans.to_json()
+            tj = time.perf_counter() - t
+            row(f"Q_{k}: JSON / text", fmt(tj), fmt(tt), f"{tj / tt:.2f}x",
+                f"{len(js) / 1e6:.0f} MB vs {len(text) / 1e6:.1f} MB")
+    import flint
+    sys.set_int_max_str_digits(0)
+    try:
+        import gmpy2
+    except ImportError:
+        gmpy2 = None
+    print("   int -> decimal (median of 5 per int)")
+    row("bits", "str(int)", "flint", "gmpy2", "")
+    for bits in (10**4, 10**5, 10**6):
+        n = 3 ** int(bits / math.log2(3))
+        ts = [median_time(lambda n=n: str(n)), median_time(lambda n=n: str(flint.fmpz(n)))]
+        ts.append(median_time(lambda n=n: gmpy2.mpz(n).digits()) if gmpy2 else float("nan"))
+        row(bits, *(fmt(t) for t in ts))
+
+
+def main() -> None:
+    print(f"python {sys.version.split()[0]}, numpy {np.__version__}; {os.cpu_count()} cores; "
+          f"load average {os.getloadavg()[0]:.2f}")
+    bare, _ = proc(BARE)
+    law_tier(bare)
+    startup_and_auto(bare)
+    bracket_tier()
+    extremes()
+    hypercube()
+    output()
+
+
+if __name__ == "__main__":
+    main()
