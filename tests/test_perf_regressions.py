@@ -19,8 +19,10 @@ import mpmath
 import numpy as np
 import pytest
 
+import powerspec as ps
 import powerspec.queries.disttiers as disttiers
 from powerspec.queries.distribution import _Query, cdf, quantile
+from powerspec.queries.frozen import NoDensityError
 from powerspec.tiers.lawparity import ParityWindow, binom_max
 from powerspec.tiers.lawproduct import BinomialWindow, binom_pmf
 
@@ -158,3 +160,13 @@ def test_auto_prefers_the_bracket_when_exact_is_far_costlier():
     # sqrt(2000) * ndtri(0.3) = -23.45; the certified bounds must bracket a value close to it
     assert a.lower <= a.estimate <= a.upper
     assert abs(a.estimate + 23.45) < 1.0
+
+
+def test_frozen_distribution_past_the_window_cap():
+    # direct(K(3)^k) has atoms only ((-1)^j 2^(k - j), textbook K(3) spectrum): no density at any
+    # k; P(X <= -2) = P(j odd) = (1 - 3^-k) / 2 for even k (exact sign parity of the binomial j)
+    d = ps.distribution("direct(K(3)^1000000000000000000)")
+    with pytest.raises(NoDensityError):
+        d.pdf([0.5])
+    est, lo, hi = d.cdf([-2.0], bounds=True)
+    assert lo[0] <= 0.5 <= hi[0] and hi[0] - lo[0] < 1e-6

@@ -108,7 +108,9 @@ class ParityWindow(BinomialWindow):
         self.extra = 0.0  # the outside mass is inside quad_err
         self.weight_rel = 0.0
         self.nblocks, self._blocks = 0, None
-        self.pt_mu = np.zeros(0)
+        # non-empty when the conditional laws are exact points (as in BinomialWindow, whose point
+        # positions it holds): readers such as the frozen distribution then refuse a density
+        self.pt_mu = np.zeros(1) if self.v0 == 0 and self.v1 == 0 else np.zeros(0)
         qd = 1 - 2 * r
         big_q = 0.0
         if qd != 0:
