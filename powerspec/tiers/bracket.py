@@ -224,9 +224,15 @@ def _forward(a: np.ndarray, n: int):
     if nzi.size <= DIRECT_ATOMS:
         w = np.arange(n // 2 + 1, dtype=np.int64)
         x = np.zeros(n // 2 + 1, dtype=complex)
+        term = np.empty(n // 2 + 1, dtype=complex)
         for g in nzi.tolist():
             ang = (2 * np.pi / n) * ((w * g) % n)
-            x += a[g] * (np.cos(ang) - 1j * np.sin(ang))
+            # cos and sin written in place (the same roundings as cos(ang) - i sin(ang))
+            np.cos(ang, out=term.real)
+            np.sin(ang, out=term.imag)
+            np.negative(term.imag, out=term.imag)
+            term *= a[g]
+            x += term
         e = (nzi.size + 3) * EPS * float(np.abs(a).sum()) * math.sqrt(n // 2 + 1)
         return x, e
     return np.fft.rfft(a, n), _c_fft(n) * math.sqrt(n) * float(np.linalg.norm(a))
