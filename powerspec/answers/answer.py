@@ -33,7 +33,7 @@ from flint import acb, arb, fmpq
 
 from powerspec.errors import InputError
 from powerspec.numbers.counts import BigCount, to_arb
-from powerspec.numbers.digits import ball_text, int_digits, int_text, json_text, radius_text
+from powerspec.numbers.digits import ball_text, int_text, json_text, radius_text
 from powerspec.numbers.hp import working
 from powerspec.spectra.spectrum import Spectrum
 
@@ -180,10 +180,10 @@ class Answer:
         rows = []
         inexact = False
         for v, m in shown:
-            t, r = ball_text(v)
-            if len(t) > 24 and t.lstrip("-").isdigit():  # a long exact integer: its leading digits
-                t = f"{t[:2]}.{t[2:18]}e+{len(t.lstrip('-')) - 1}" if t.startswith("-") else \
-                    f"{t[:1]}.{t[1:17]}e+{len(t) - 1}"
+            # exact integer atoms (hypercubes, Hamming graphs) need no digit search
+            # an exact integer atom is written like an exact count (rounded leading digits and
+            # its length past 40 digits); a ball keeps every digit its radius covers
+            t, r = (count_text(int(v.p)), 0) if isinstance(v, fmpq) and v.q == 1 else ball_text(v)
             inexact = inexact or r != 0
             rows.append((t, radius_text(r) if r else "exact", count_text(m)))
         lines.append("")
@@ -215,10 +215,8 @@ def json_count(n: Any) -> Any:
     """An exact count for JSON: a number up to 4000 digits, else a string (digits or factored)."""
     if isinstance(n, BigCount):
         return str(n)
-    n = int(n)
-    if int_digits(n) <= 4000:
-        return RawNumber(int_text(n))
-    return int_text(n)
+    t = int_text(int(n))  # one conversion; its length decides number or string
+    return RawNumber(t) if len(t.lstrip("-")) <= 4000 else t
 
 
 def json_value(v: Any) -> tuple[Any, Any]:
@@ -299,11 +297,15 @@ def dump_json(obj: Any) -> str:
 
 
 def count_text(n: Any) -> str:
-    """An exact count for text: in full up to 40 digits, else leading digits and the length.
+    """An exact count for text: in full up to 40 digits, else 12 leading digits and the length.
 
-    A factored count (BigCount) prints its exact form while that is short, else
-    its certified leading digits and length (``--json`` keeps the exact form).
+    The leading digits are the count rounded to 12 significant digits (decided in
+    ball arithmetic on the top 192 bits, exactly when a ball cannot decide them);
+    the digit count is exact.  A factored count (BigCount) prints its exact form
+    while that is short (``--json`` always keeps the exact form).
 
+    >>> count_text(2**64), count_text(10**50 - 1)
+    ('18446744073709551616', '1.00000000000e+50 (an integer of 50 digits)')
     >>> count_text(BigCount.power(3, 10**6) - BigCount.power(2, 10**6))
     '3^1000000 - 2^1000000'
     >>> count_text(BigCount.power(3, 10**6) - 2**(10**6))    # 3^k - 2^k, 2^k written out
@@ -311,27 +313,47 @@ def count_text(n: Any) -> str:
     """
     if isinstance(n, BigCount):
         exact = str(n)
-        return exact if len(exact) <= TEXT_DIGITS else _big_count_text(n)
+        if len(exact) <= TEXT_DIGITS:
+            return exact
+        with working():
+            lg = to_arb(n).log() / arb(10).log()
+        return _leading_text(lg, None)
     n = int(n)
     if n.bit_length() <= 3.32 * TEXT_DIGITS:
         return str(n)
-    d = int_digits(n)
-    with mpmath.workprec(80):
-        lead = mpmath.mpf(n) / mpmath.mpf(10) ** (d - 1)
-    return f"{mpmath.nstr(lead, 12, strip_zeros=False)}e+{d - 1} (an integer of {d} digits)"
-
-
-def _big_count_text(n: BigCount) -> str:
-    """Leading digits of a huge positive count from a certified ball (digits the ball covers)."""
+    sign = "-" if n < 0 else ""
+    n = abs(n)
+    shift = max(0, n.bit_length() - 192)  # the top 192 bits decide 12 digits by far
     with working():
-        b = to_arb(n)
-        lg = b.log() / arb(10).log()
-        lo, hi = (int(e.floor().unique_fmpz()) for e in (lg.lower(), lg.upper()))
-        if lo != hi:  # the ball straddles a power of ten: say only the length range
-            return f"an integer of {lo + 1} or {hi + 1} digits (exact form in --json)"
-        lead = b / arb(10) ** lo
-        text = lead.str(12, radius=False, more=False)
-    return f"{text}e+{lo} (an integer of {lo + 1} digits)"
+        # n / 2^shift lies in [n >> shift, (n >> shift) + 1]
+        top = arb(n >> shift) + arb("0.5", "0.5") if shift else arb(n)
+        lg = (top.log() + shift * arb(2).log()) / arb(10).log()
+    return sign + _leading_text(lg, n)
+
+
+def _leading_text(lg: arb, exact: int | None) -> str:
+    """'d.ddddddddddde+E (an integer of D digits)' from a ball around log10 of a count.
+
+    ``exact`` is the count itself when known: used when the ball cannot decide the
+    digit count or the rounding of the 12th digit.
+    """
+    q = None
+    with working():
+        e = lg.floor().unique_fmpz()
+        if e is not None:
+            q = (arb(10) ** (lg - int(e) + 11) + arb("0.5")).floor().unique_fmpz()
+    if e is None or q is None:
+        if exact is None:  # no exact form at hand: the length range, which the ball decides
+            lo, hi = (int(b.floor().unique_fmpz()) for b in (lg.lower(), lg.upper()))
+            return f"an integer of {lo + 1} to {hi + 1} digits (exact form in --json)"
+        t = int_text(exact)
+        e, q = len(t) - 1, (int(t[:13]) + 5) // 10  # round half up at the 12th digit
+    e, q = int(e), int(q)
+    digits = e + 1
+    if q >= 10**12:  # 9.99...95 rounds up to 10.0...: the exponent moves, the length does not
+        q, e = q // 10, e + 1
+    t = str(q)
+    return f"{t[0]}.{t[1:]}e+{e} (an integer of {digits} digits)"
 
 
 def value_text(v: Any) -> str:

@@ -197,7 +197,10 @@ def _execute(parser: argparse.ArgumentParser, argv: Sequence[str] | None) -> int
     if output is not None and args.command != "plot":
         write_atomic(output, text)
     else:
-        sys.stdout.write(text)
+        # in pieces: one write of several GiB can come back short, and a str that size is
+        # better not copied whole into the stream's encoder
+        for i in range(0, len(text), 1 << 24):
+            sys.stdout.write(text[i:i + (1 << 24)])
         sys.stdout.flush()
     return 0
 

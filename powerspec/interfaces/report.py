@@ -125,10 +125,9 @@ def _atoms_line(ans: Answer, n: int) -> str:
 def _rows(pairs) -> tuple[list[tuple[str, str, str]], bool]:
     rows, inexact = [], False
     for v, m in pairs:
-        t, r = ball_text(v)
-        if len(t) > 24 and t.lstrip("-").isdigit():  # a long exact integer: its leading digits
-            sign, digits = ("-", t[1:]) if t.startswith("-") else ("", t)
-            t = f"{sign}{digits[0]}.{digits[1:17]}e+{len(digits) - 1}"
+        # an exact integer atom is written like an exact count (rounded leading digits and
+        # its length past 40 digits); a ball keeps every digit its radius covers
+        t, r = (count_text(int(v.p)), 0) if isinstance(v, fmpq) and v.q == 1 else ball_text(v)
         inexact = inexact or r != 0
         rows.append((t, radius_text(r) if r else "exact", count_text(m)))
     return rows, inexact
