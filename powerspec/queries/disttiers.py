@@ -245,8 +245,9 @@ class AddLaw:
         mix = (f"; mixed over the {len(self.e)} exact atoms of the few-copy operands"
                if exact is not None else "")
         self.method = (
-            f"law: normal limit of the Cartesian power (exact mean {law.mu:.6g}, variance "
-            f"{law.variance:.6g}); bounds: {be}, Chernoff tails and the exact support; "
+            f"law: normal limit of the Cartesian power (mean {law.mu:.6g}, variance "
+            f"{law.variance:.6g}, in double precision from the factors' eigenvalues, their rounding "
+            f"inside the bounds); bounds: {be}, Chernoff tails and the exact support; "
             f"estimate: Edgeworth in the centre, Lugannani-Rice saddlepoint in the tails{lat} "
             f"(an estimate, not a bound){mix}")
         self.params = {"mean": law.mu + float(self.p @ self.e),

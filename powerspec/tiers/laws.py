@@ -322,7 +322,8 @@ class SumLaw(Law):
 
     ``parts`` is a sequence of (values, probs, copies, atol) -- atol bounds the
     absolute error of the values (0 for exact ones).  The normal approximation
-    N(sum k_i m1_i, sum k_i s_i^2) uses the *exact* cumulants of the sum.
+    N(sum k_i m1_i, sum k_i s_i^2) uses the cumulants of the sum (additive over the
+    blocks, evaluated in double precision; the rounding of the mean is in ``slack``).
 
     >>> q = SumLaw([([-1.0, 1.0], [0.5, 0.5], 100, 0.0)])   # the 100-cube
     >>> q.mean(), q.var(), q.lattice
@@ -474,7 +475,7 @@ class SumLaw(Law):
 
         The estimate is Edgeworth (two terms) for |z| < 2 and Lugannani--Rice
         beyond (at the continuity-corrected point on lattices); lower/upper are
-        rigorous: Berry--Esseen with the exact mean and variance, Chernoff
+        rigorous: Berry--Esseen with the mean and variance (rounding in the slack), Chernoff
         tails at the same saddlepoint, the exact support (with the values'
         rounding allowance), widened by REL_SLACK.  Upper bounds that underflow
         stay at least :data:`TINY`.  With ``with_log`` a fourth array holds the
@@ -552,7 +553,7 @@ class SumLaw(Law):
         return np.where(good, est, fallback)
 
     def pdf(self, x):
-        """Normal density with the exact mean and variance (estimate)."""
+        """Normal density with the law's mean and variance (an estimate)."""
         return npdf((np.asarray(x, dtype=float) - self.mu) / self.sd) / self.sd
 
 
