@@ -20,6 +20,7 @@ from typing import Any
 import numpy as np
 from flint import acb, arb, fmpq
 from matplotlib.figure import Figure
+from matplotlib.ticker import MaxNLocator
 
 from powerspec.interfaces.sweep import Sweep
 from powerspec.numbers.counts import BigCount
@@ -85,6 +86,8 @@ def draw_sweep(sw: Sweep, *, size: tuple[float, float] = (6.4, 4.0), dpi: int = 
             label=f"{sw.quantity} (certified value)")
     if _geometric(x):
         ax.set_xscale("log")
+    elif all(isinstance(p.at, int) for p in sw.points):
+        ax.xaxis.set_major_locator(MaxNLocator(integer=True))  # a power k has no k = 2.5
     if _spans(np.concatenate([y[shown], lo[band], hi[band]])):
         ax.set_yscale("log")
     what = "an invariant" if sw.matrix == "" else f"{sw.matrix} matrix"

@@ -338,7 +338,7 @@ def exp_sum(cx: Context, kind: str, lap_upper=None, alg_lower=None):
     >>> round(float(lg["value"]), 12)       # 3 log(1 + e^-2): the heat trace of K_2 is 1 + e^-2t
     0.380784033129
     """
-    name = "e^lambda" if kind == "adjacency" else f"e^(-{cx.t:g} alpha)"
+    name = "e^lambda" if kind == "adjacency" else ("e^(-alpha)" if cx.t == 1 else f"e^(-{cx.t:g} alpha)")
     if not cx.undirected:
         why = f"not defined here: sum {name} is computed for undirected graphs only"
         return unavailable(why), unavailable(why)
