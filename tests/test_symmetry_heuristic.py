@@ -81,3 +81,25 @@ def test_estimate_error_is_measured_not_assumed():
     ref, err = reference_eigenvalues(explicit_product([(star, star.sum(axis=1), 4)], 0, 1, "laplacian"))
     w2, m2 = compare_sorted(sorted_degree_laplacian([op], 0, 1), [(float(v), 1) for v in ref])
     assert abs(w2 - worst) < 1e-9 and abs(m2 - mean) < 1e-9
+
+
+def test_weyl_brackets_of_a_non_negative_laplacian_start_at_zero():
+    # D - A with non-negative weights and degrees = row sums is positive semidefinite
+    # (Gershgorin); the brackets are clipped there and still contain every eigenvalue of the
+    # explicit product (numpy)
+    path3 = np.array([[0.0, 1, 0], [1, 0, 1], [0, 1, 0]])
+    ops = [PowerOperand(path3, path3.sum(axis=1), 3)]
+    ref, err = reference_eigenvalues(explicit_product([(path3, path3.sum(axis=1), 3)], 0, 1,
+                                                      "laplacian"))
+    segs = weyl_laplacian_brackets(ops, 0, 1)
+    assert min(lo for _, lo, _ in segs) == 0.0
+    pos = 0
+    for count, lo, hi in segs:
+        seg = ref[pos:pos + count]
+        assert np.all(seg >= lo - err) and np.all(seg <= hi + err)
+        pos += count
+    # a negative weight breaks semidefiniteness: no clipping then
+    signed = path3.copy()
+    signed[0, 1] = signed[1, 0] = -1.0
+    raw = weyl_laplacian_brackets([PowerOperand(signed, signed.sum(axis=1), 3)], 0, 1)
+    assert min(lo for _, lo, _ in raw) < 0

@@ -37,6 +37,7 @@ from __future__ import annotations
 
 import math
 from collections import Counter
+from fractions import Fraction
 from itertools import combinations_with_replacement
 
 import numpy as np
@@ -209,7 +210,25 @@ def weyl_laplacian_brackets(operands: list[PowerOperand], a: float, b: float) ->
     neg_hi = sorted(((-v, m) for v, m in adj_lo), key=lambda t: t[0])  # upper ends of -A's eigenvalues
     neg_lo = sorted(((-v, m) for v, m in adj_hi), key=lambda t: t[0])  # lower ends, same order
     second = [(m, lo + dmin, hi + dmax) for (lo, m), (hi, _) in zip(neg_lo, neg_hi, strict=True)]
-    return _intersect(first, second)
+    out = _intersect(first, second)
+    if a >= 0 and b >= 0 and all(_dominant(op) for op in operands):
+        # each factor's D - A is weakly diagonally dominant with non-negative weights, and so is
+        # the product's (its degrees and row sums combine by the same monotone rule): it is
+        # positive semidefinite (Gershgorin), so no eigenvalue lies below 0
+        out = [(c, max(lo, 0.0), max(hi, 0.0)) for c, lo, hi in out]
+    return out
+
+
+def _dominant(op: PowerOperand) -> bool:
+    """True when the adjacency is non-negative and every degree is at least its row sum (exact).
+
+    The comparison is in exact rationals of the stored doubles (factors here are small).
+    """
+    adj = np.asarray(op.adjacency, dtype=float)
+    if (adj < 0).any():
+        return False
+    return all(Fraction(float(d)) >= sum(map(Fraction, row.tolist()), Fraction(0))
+               for d, row in zip(np.asarray(op.degrees, dtype=float), adj, strict=True))
 
 
 def _intersect(s1: Segments, s2: Segments) -> Segments:
