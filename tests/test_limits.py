@@ -472,3 +472,21 @@ def test_direct_power_with_a_huge_zero_count_answers(capsys):
     assert atoms[1][1] == "3^1000000 - " + str(fmpz(2) ** k)
     code, text, err = run(["top", f"direct(P(3)^{k})", "-m", "3"], capsys)
     assert code == 0 and "(an integer of 477122 digits)" in text  # 3^k has 477122 digits
+
+
+@pytest.mark.timeout(WORK)
+def test_text_of_a_spectrum_with_counts_past_python_digit_cap(capsys):
+    k = 100_000
+    code, out, err = run(["spectrum", f"cart(K(2)^{k})"], capsys)
+    assert code == 0 and err == ""
+    # source: Q_k has eigenvalues k - 2j with multiplicity C(k, j) (textbook); the nullity is
+    # C(k, k/2), here with 30101 digits (exact integers, written by FLINT), and its share
+    # C(k, k/2) / 2^k ~ sqrt(2 / (pi k)) = 0.002523... (Stirling; checked against mpmath)
+    digits = str(fmpz(math.comb(k, k // 2)))
+    share = mpmath.binomial(k, k // 2) / mpmath.mpf(2) ** k
+    zero = next(line for line in out.splitlines() if line.strip().startswith("zero"))
+    lead = round(int(digits[:13]) / 10)  # the 12 leading digits, rounded
+    assert f"nullity {str(lead)[0]}.{str(lead)[1:]}e+{len(digits) - 1} (an integer of " \
+           f"{len(digits)} digits)" in zero
+    printed = mpmath.mpf(zero.split("share ")[1].split()[0])
+    assert abs(printed - share) < 1e-13

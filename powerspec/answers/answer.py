@@ -288,7 +288,8 @@ def dump_json(obj: Any) -> str:
             raise InputError("internal: a non-finite number reached the output")
         return json.dumps(obj)
     if isinstance(obj, str):
-        return json.dumps(obj)
+        # long exact counts are plain digits: nothing to escape, so no pass of the encoder
+        return f'"{obj}"' if obj.isascii() and obj.isdigit() else json.dumps(obj)
     if isinstance(obj, dict):
         return "{" + ", ".join(f"{json.dumps(str(k))}: {dump_json(v)}" for k, v in obj.items()) + "}"
     if isinstance(obj, (list, tuple)):

@@ -72,7 +72,12 @@ def share_text(part: Any, whole: Any) -> str:
 
     """
     if isinstance(part, int) and isinstance(whole, int):
-        f = Fraction(part, whole)
+        f = Fraction(part, whole)  # 2^(k-1) / 2^k is 1/2 at any k
+        if f.numerator.bit_length() + f.denominator.bit_length() > 90:  # over 24 digits
+            f = None
+    else:
+        f = None
+    if f is not None:
         if f.denominator == 1 or (len(str(f.numerator)) + len(str(f.denominator)) <= 12
                                   and f.denominator in (2, 4, 5, 10)):
             return str(f)
