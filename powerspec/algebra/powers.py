@@ -232,7 +232,9 @@ def _compositions(s: Spectrum, k: int, comb: Combination) -> Spectrum:
             for n in np.unique(n_before):
                 sel = n_before == n
                 binom[sel] = pascal.row(int(n))[c[sel]]
-            w = w * binom
+            # the first factor multiplies a vector of ones: take the binomials as they are
+            # (big-int products by 1 still copy every digit, k + 1 times)
+            w = binom if i == 0 else w * binom
         m_i = int(s.mult[i])
         if m_i != 1:
             cmax = int(c.max()) if c.size else 0
