@@ -29,6 +29,7 @@
 from __future__ import annotations
 
 import math
+from fractions import Fraction
 
 import mpmath
 from flint import acb, arb, fmpq, fmpz
@@ -77,7 +78,16 @@ def real_text(x: HP) -> tuple[str, mpmath.mpf]:
             if max(p.bit_length(), q.bit_length()) < 1000:
                 f = p / q
                 if math.isfinite(f) and f != 0 and fmpq(*f.as_integer_ratio()) == x:
-                    return _float_text(f), mpmath.mpf(0)
+                    # The shortest repr reads back to the same double, but its decimal value is
+                    # in general not the double itself (17.998 is not 2 * fl(8.999)): the
+                    # radius is the exact distance, 0 only when the digits are the value.
+                    text = _float_text(f)
+                    gap = abs(Fraction(text) - Fraction(p, q))
+                    if not gap:
+                        return text, mpmath.mpf(0)
+                    with mpmath.workprec(64):
+                        r = mpmath.mpf(gap.numerator) / gap.denominator
+                        return text, r * (1 + mpmath.mpf(2) ** -50)
             return _rounded(arb(x), exact=True)
         if x.is_exact():
             m, e = x.mid().man_exp()

@@ -1,0 +1,151 @@
+"""Regression tests for wrong-number bugs of the number model, one minimal reproduction each.
+
+Each test names, beside the check, where the truth comes from (exact integers and
+rationals, sympy's exact characteristic polynomial, mpmath at 50 digits, numpy on
+an explicitly built matrix, or interval arithmetic done by hand).  The bug classes
+were found by the differential tests (tests/test_differential.py):
+
+1. a printed value with radius 0 that is not the atom's value (shortest repr of a double);
+2. an OverflowError inside the exact rational domain (numerators divided by a gcd >= 2^63);
+3. real atoms where the true eigenvalues are complex (D^-1 A with degrees of both signs);
+4. double-precision balls of distinct high-precision atoms that overlap;
+5. overlapping balls left unmerged by a sweep in midpoint order (radii of different sizes);
+6. an OverflowError turning a midpoint of more than 1077 bits into a double ball.
+
+A last, strict-xfail test records a loss of resolution in the symmetry tier, found the same way.
+"""
+
+from __future__ import annotations
+
+import json
+from decimal import Decimal
+from fractions import Fraction
+
+import mpmath
+import numpy as np
+import pytest
+import sympy
+from flint import acb, arb, ctx, fmpq
+
+import powerspec as ps
+from powerspec.numbers.balls import Balls
+from powerspec.numbers.convert import to_balls
+from powerspec.numbers.digits import real_text
+from powerspec.numbers.rationals import Rationals
+from powerspec.spectra.merge import merge_balls
+from powerspec.spectra.spectrum import HPValues, Spectrum
+
+
+# ------------------------------------------------------------------ helpers
+def _exact_interval(b) -> tuple[Fraction, Fraction]:
+    """A real certified scalar (fmpq or arb) as an exact interval of Fractions."""
+    if isinstance(b, fmpq):
+        v = Fraction(int(b.p), int(b.q))
+        return v, v
+    m, e = b.mid().man_exp()
+    r, er = b.rad().man_exp()
+    mid = Fraction(int(m)) * Fraction(2) ** int(e)
+    rad = Fraction(int(r)) * Fraction(2) ** int(er)
+    return mid - rad, mid + rad
+
+
+def _meet(x, y) -> bool:
+    """Do two certified scalars (fmpq / arb / acb) possibly denote the same number?"""
+    if isinstance(x, fmpq) and isinstance(y, fmpq):
+        return x == y
+    with ctx.workprec(400):
+        return acb(x).overlaps(acb(y))
+
+
+def _disjoint(balls) -> bool:
+    return not any(_meet(balls[i], balls[j]) for i in range(len(balls))
+                   for j in range(i + 1, len(balls)))
+
+
+def _mp_contains(b, z, slack) -> bool:
+    """Is the mpmath number z within slack of the certified scalar b?"""
+    with mpmath.workdps(60):
+        if isinstance(b, fmpq):
+            return abs(mpmath.mpf(int(b.p)) / int(b.q) - z) <= slack
+        if isinstance(b, arb):
+            b = acb(b)
+        re_lo, re_hi = _exact_interval(b.real)
+        im_lo, im_hi = _exact_interval(b.imag)
+        zr, zi = mpmath.mpmathify(z).real, mpmath.mpmathify(z).imag
+
+        def inside(x, lo, hi):
+            return mpmath.mpf(lo.numerator) / lo.denominator - slack <= x <= \
+                mpmath.mpf(hi.numerator) / hi.denominator + slack
+
+        return inside(zr, re_lo, re_hi) and inside(zi, im_lo, im_hi)
+
+
+def _mp_eigenvalues(q: list[list[Fraction]], dps: int = 50) -> list:
+    """Eigenvalues of an exact rational matrix by mpmath at dps digits."""
+    n = len(q)
+    with mpmath.workdps(dps):
+        a = mpmath.matrix(n, n)
+        for i in range(n):
+            for j in range(n):
+                a[i, j] = mpmath.mpf(q[i][j].numerator) / q[i][j].denominator
+        return list(mpmath.eig(a, left=False, right=False))
+
+
+def _counts_match(sp: Spectrum, truth: list, slack) -> None:
+    """Every true eigenvalue lies in exactly one atom, and each atom holds its multiplicity."""
+    balls = sp.balls()
+    mult = [int(m) for m in sp.mult.tolist()]
+    hits = [0] * len(balls)
+    for z in truth:
+        owners = [i for i, b in enumerate(balls) if _mp_contains(b, z, slack)]
+        assert len(owners) == 1, (z, owners)
+        hits[owners[0]] += 1
+    assert hits == mult, (hits, mult)
+
+
+# ------------------------------------------------------------------ 1. shortest-repr radius
+def test_printed_double_carries_its_distance_to_the_exact_value():
+    # 8.999 is read as the double fl(8.999) = 5065986630838387 / 2^49 (exact integers: Python's
+    # Fraction(float) is exact).  The signless Laplacian of [[0, w], [w, 0]] is [[w, w], [w, w]],
+    # eigenvalues 0 and 2w (2x2: trace 2w, determinant 0); the Cartesian square adds them:
+    # 0, 2w (twice), 4w (DESIGN section 2, Cartesian rule).  The shortest repr of 2w is "17.998",
+    # which is not 2w: printed with radius 0 it claimed an exact value it is not.
+    w = Fraction(8.999)
+    g = ps.factor(np.array([[0.0, 8.999], [8.999, 0.0]]))
+    ans = ps.spectrum(ps.cart((g, 2)), "signless")
+    data = json.loads(ans.to_json(), parse_float=Decimal)
+    want = [(Fraction(0), 1), (2 * w, 2), (4 * w, 1)]
+    assert [m for _, m in data["atoms"]] == [m for _, m in want]
+    for (printed, _), rad, (truth, _) in zip(data["atoms"], data["radii"], want, strict=True):
+        p, r = Fraction(Decimal(str(printed))), Fraction(Decimal(str(rad)))
+        assert abs(p - truth) <= r, (printed, rad, float(abs(p - truth)))
+    assert data["atoms"][1][0] == Decimal("17.998") and 2 * w != Fraction("17.998")
+    # numpy on the explicitly built signless Laplacian of the product agrees
+    a = np.kron(np.array([[0, 8.999], [8.999, 0]]), np.eye(2)) + np.kron(
+        np.eye(2), np.array([[0, 8.999], [8.999, 0]]))
+    q = np.diag(a.sum(axis=1)) + a
+    assert np.allclose(np.linalg.eigvalsh(q), [0, 17.998, 17.998, 35.996], atol=1e-12)
+
+
+def test_real_text_radius_of_a_shortest_repr():
+    # exact rationals: fl(0.1) = 3602879701896397 / 2^55 prints as "0.1", which is off by
+    # 2^-55 / 5 = 5.55e-18 (exact integers); 5/4 prints as "1.25", which is exact
+    fl = fmpq(*(0.1).as_integer_ratio())
+    text, r = real_text(fl)
+    gap = Fraction(0.1) - Fraction(1, 10)
+    assert text == "0.1" and gap == Fraction(1, 5 * 2**55)
+    assert mpmath.mpf(r) >= mpmath.mpf(gap.numerator) / gap.denominator
+    assert mpmath.mpf(r) <= 2 * mpmath.mpf(gap.numerator) / gap.denominator
+    assert real_text(fmpq(5, 4)) == ("1.25", 0)
+
+
+# ------------------------------------------------------------------ 2. Rationals.reduced overflow
+@pytest.mark.parametrize("den", [2**64, 3 * 2**63, 10**30])
+def test_reduced_by_a_gcd_beyond_int64(den):
+    # exact integers: gcd(0, d) = d, so 0/d reduces to 0/1 -- the int64 numerators were divided
+    # by d >= 2^63 ("Python int too large to convert to C long")
+    r = Rationals(np.zeros(3, dtype=np.int64), den).reduced()
+    assert r.den == 1 and r.to_fractions() == [0, 0, 0]
+    # a numerator that is a multiple of a big common factor: (2^40 * d) / (2^41 * d) = 1/2
+    s = Rationals(np.array([2**40 * den, 0], dtype=object), 2**41 * den).reduced()
+    assert s.to_fractions() == [Fraction(1, 2), 0] and s.den == 2
