@@ -149,3 +149,40 @@ def test_reduced_by_a_gcd_beyond_int64(den):
     # a numerator that is a multiple of a big common factor: (2^40 * d) / (2^41 * d) = 1/2
     s = Rationals(np.array([2**40 * den, 0], dtype=object), 2**41 * den).reduced()
     assert s.to_fractions() == [Fraction(1, 2), 0] and s.den == 2
+
+
+# ------------------------------------------------------------------ 3. complex roots kept
+G_MIXED = [[3.0, 0.0, -1.0], [0.0, 0.0, 1.0], [-1.0, 1.0, -2.0]]
+"""Symmetric, degrees (row sums) 2, 1, -2: D^-1 A is not similar to a symmetric matrix."""
+
+
+def test_transition_with_degrees_of_both_signs_keeps_complex_eigenvalues():
+    # sympy (exact): D^-1 A = [[3/2, 0, -1/2], [0, 0, 1], [1/2, -1/2, 1]] has characteristic
+    # polynomial (x - 1)(4x^2 - 6x + 3)/4, roots 1 and (3 +- i sqrt(3))/4
+    a = sympy.Matrix(G_MIXED).applyfunc(sympy.nsimplify)
+    t = sympy.diag(*[sum(a.row(i)) for i in range(3)]).inv() * a
+    x = sympy.Symbol("x")
+    assert sympy.factor(t.charpoly(x).as_expr()) == sympy.factor((x - 1) * (4 * x**2 - 6 * x + 3) / 4)
+    sp = ps.spectrum(ps.factor(np.array(G_MIXED)), "transition").atoms
+    assert not sp.is_real and [int(m) for m in sp.mult.tolist()] == [1, 1, 1]
+    with mpmath.workdps(60):
+        truth = [mpmath.mpf(1), (3 + 1j * mpmath.sqrt(3)) / 4, (3 - 1j * mpmath.sqrt(3)) / 4]
+    _counts_match(sp, truth, mpmath.mpf(10) ** -40)
+    # numpy on the same matrix (floats): the imaginary parts are +-0.4330127...
+    ev = np.linalg.eigvals(np.array(G_MIXED) / np.array(G_MIXED).sum(axis=1)[:, None])
+    assert np.allclose(sorted(abs(ev.imag)), [0, 3**0.5 / 4, 3**0.5 / 4], atol=1e-12)
+
+
+def test_explicit_build_with_degrees_of_both_signs_keeps_complex_eigenvalues():
+    # the explicit tier solves strong(G, K(2)) through the same exact characteristic polynomial;
+    # truth: mpmath at 50 digits on D^-1 A of the strong product built here as
+    # A (x) I + I (x) B + A (x) B (integer entries, exact)
+    g, b = np.array(G_MIXED), np.array([[0.0, 1.0], [1.0, 0.0]])
+    adj = np.kron(g, np.eye(2)) + np.kron(np.eye(3), b) + np.kron(g, b)
+    deg = adj.sum(axis=1)
+    q = [[Fraction(int(adj[i, j])) / Fraction(int(deg[i])) for j in range(6)] for i in range(6)]
+    truth = _mp_eigenvalues(q)
+    assert max(abs(mpmath.im(z)) for z in truth) > 0.6  # the product has non-real eigenvalues
+    ans = ps.spectrum(ps.strong(ps.factor(g), ps.factor(b)), "transition")
+    assert "explicit" in ans.method and not ans.atoms.is_real
+    _counts_match(ans.atoms, truth, mpmath.mpf(10) ** -40)

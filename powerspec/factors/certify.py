@@ -103,7 +103,11 @@ def _charpoly_eigenvalues(mat: fmpq_mat, symmetric: bool) -> list[tuple[HP, int]
                 out.append((-c[0] / c[1], int(e)))
                 continue
             for r, m in g.numer().complex_roots():
-                if isinstance(r, acb) and symmetric:
+                # FLINT returns certified real roots as arb.  An acb root whose imaginary part
+                # excludes 0 is certainly not real, whatever the caller believed about its
+                # matrix (D^-1 A of a symmetric A with degrees of both signs is not similar to a
+                # symmetric matrix): its imaginary part is kept, never dropped.
+                if isinstance(r, acb) and symmetric and r.imag.contains(0):
                     r = r.real  # eigenvalues of symmetric matrices are real
                 out.append((r, int(e) * int(m)))
     return out
@@ -130,14 +134,22 @@ def _residual_eigenvalues(a: np.ndarray, extra: float) -> list[tuple[HP, int]]:
 
 def numeric_eigenvalues(adj, kind: str, degrees: list[Fraction],
                         symmetric: bool) -> list[tuple[HP, int]]:
-    """Certified eigenvalues of the kind's matrix without a closed form (routes 2 and 3)."""
+    """Certified eigenvalues of the kind's matrix without a closed form (routes 2 and 3).
+
+    ``symmetric`` says the adjacency matrix is symmetric.  D^-1 A is then similar to the
+    symmetric D^-1/2 A D^-1/2 only when the degrees share one sign; with degrees of both
+    signs its eigenvalues may be complex (and are kept so).
+    """
     n = adj.shape[0]
+    if symmetric and kind in ("transition", "normalized"):
+        symmetric = all(x > 0 for x in degrees) or all(x < 0 for x in degrees)
     if n <= CHARPOLY_MAX or (not symmetric and n <= 2 * CHARPOLY_MAX):
         return _charpoly_eigenvalues(_exact_matrix(adj, kind, degrees), symmetric)
     if not symmetric:
         raise SizeLimitError(
-            f"a directed factor of order {n} has no closed form here and is beyond the certified "
-            f"solver's reach ({2 * CHARPOLY_MAX} vertices); use a smaller or undirected factor")
+            f"a factor of order {n} whose matrix is not symmetric (directed, or D^-1 A with degrees "
+            f"of both signs) has no closed form here and is beyond the certified solver's reach "
+            f"({2 * CHARPOLY_MAX} vertices); use a smaller or undirected factor")
     if n > DENSE_MAX:
         raise SizeLimitError(
             f"a factor of order {n} without a closed form is beyond the dense certified solver "
