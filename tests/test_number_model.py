@@ -186,3 +186,110 @@ def test_explicit_build_with_degrees_of_both_signs_keeps_complex_eigenvalues():
     ans = ps.spectrum(ps.strong(ps.factor(g), ps.factor(b)), "transition")
     assert "explicit" in ans.method and not ans.atoms.is_real
     _counts_match(ans.atoms, truth, mpmath.mpf(10) ** -40)
+
+
+# ------------------------------------------------------------------ 4. from_hp double images
+def test_atoms_closer_than_a_double_stay_distinct_and_disjoint():
+    # exact: 1 + 2^-70 and 1 + 2^-69 differ by 2^-70; rounded to doubles both become 1 (+- radius),
+    # and those double balls overlap.  The atoms must stay two disjoint balls of one eigenvalue each.
+    with ctx.workprec(160):
+        x, y = arb(1) + arb(2) ** -70, arb(1) + arb(2) ** -69
+    sp = Spectrum.from_hp([y, x], [1, 1])
+    assert len(sp) == 2 and _disjoint(sp.balls())
+    for b, v in zip(sp.balls(), [Fraction(1) + Fraction(1, 2**70), Fraction(1) + Fraction(1, 2**69)],
+                    strict=True):
+        lo, hi = _exact_interval(b)
+        assert lo <= v <= hi
+    # exact counts on either side of the midpoint between them
+    assert sp.count_below(Fraction(1) + Fraction(3, 2**71)) == (1, 1)
+
+
+def test_normalized_strong_power_with_sub_double_gaps():
+    # normalized Laplacian of strong(scale(w, K(2, 1))^2) with w = 3.95e-12: two eigenvalues near
+    # 1 + 2.6e-12 closer than a double resolves.  Truth: mpmath at 50 digits on the rational
+    # matrix I - D^-1 A, similar to I - D^-1/2 A D^-1/2 (same eigenvalues), built here from the
+    # definition of the strong product (A (x) I + I (x) A + A (x) A) with w's exact value.
+    w = Fraction(3.9525266209323236e-12)
+    k21 = [[0, 1, 1], [1, 0, 0], [1, 0, 0]]
+    a1 = [[w * v for v in row] for row in k21]
+    n = 9
+    adj = [[Fraction(0)] * n for _ in range(n)]
+    for i1 in range(3):
+        for i2 in range(3):
+            for j1 in range(3):
+                for j2 in range(3):
+                    v = (a1[i1][j1] if i2 == j2 else 0) + (a1[i2][j2] if i1 == j1 else 0) \
+                        + a1[i1][j1] * a1[i2][j2]
+                    adj[3 * i1 + i2][3 * j1 + j2] = Fraction(v)
+    deg = [sum(row) for row in adj]
+    q = [[(1 if i == j else 0) - adj[i][j] / deg[i] for j in range(n)] for i in range(n)]
+    truth = sorted(mpmath.re(z) for z in _mp_eigenvalues(q))
+    near = [z for z in truth if abs(z - 1) < 1e-11 and abs(z - 1) > 1e-13]
+    assert len(near) == 2 and 0 < abs(near[1] - near[0]) < 1e-18  # closer than a double at 1
+    ans = ps.spectrum("strong(scale(3.9525266209323236e-12, K(2, 1))^2)", "normalized")
+    assert _disjoint(ans.atoms.balls())
+    _counts_match(ans.atoms, truth, mpmath.mpf(10) ** -40)
+
+
+# ------------------------------------------------------------------ 5. merging by lower endpoints
+def test_merge_balls_joins_overlaps_across_a_smaller_ball():
+    # interval arithmetic by hand: [-3, 3] and [2.6, 7.6] overlap (3 > 2.6), [4.5, 5.5] lies in
+    # the second; all three are one cluster.  Sorted by midpoint, the middle ball [4.5, 5.5] does
+    # not meet [-3, 3] and used to split the sweep, leaving two overlapping atoms.
+    b = Balls.from_floats([0.0, 5.0, 5.1], [3.0, 0.5, 2.5])
+    vals, mult = merge_balls(b, np.array([1, 1, 1]))
+    assert mult.tolist() == [3]
+    lo, hi = _exact_interval(Spectrum(vals, mult, merged=True).balls()[0])
+    assert lo <= -3 and Fraction(7.6) <= hi
+
+
+def test_merge_high_precision_and_complex_balls_across_a_smaller_ball():
+    # the same three intervals as arb balls (the high-precision merge) and as complex balls on the
+    # real axis next to a distant fourth one (the complex merge): one cluster of 3 (by hand)
+    with ctx.workprec(160):
+        items = [arb(0, 3), arb(5, 0.5), arb(fmpq(51, 10)) + arb(0, 2.5)]
+    sp = Spectrum(HPValues(items), np.array([1, 1, 1]))
+    assert [int(m) for m in sp.mult.tolist()] == [3] and sp.order == 3
+    with ctx.workprec(160):
+        citems = [acb(x) for x in items] + [acb(100, 1)]
+    sc = Spectrum(HPValues(citems), np.array([1, 1, 1, 1]))
+    assert sorted(int(m) for m in sc.mult.tolist()) == [1, 3]
+    cb = Balls(np.array([0, 5, 5.1, 100 + 1j]), np.array([3.0, 0.5, 2.5, 0.0]),
+               np.zeros(4, dtype=np.int64))
+    vals, mult = merge_balls(cb, np.array([1, 1, 1, 1]))
+    assert sorted(mult.tolist()) == [1, 3]
+
+
+M6 = [[0.0, 0.0, 0.0, 0.0, 7.643357760101018, 0.0],
+      [0.0, 0.0, 710176.0887850526, -51852.3756207366, 77129.41564553608, 0.0],
+      [0.0, 710176.0887850526, 0.0, 0.0, 0.0, -150000.0],
+      [0.0, -51852.3756207366, 0.0, 0.0, 954302.957904171, 97796.31763623691],
+      [7.643357760101018, 77129.41564553608, 0.0, 954302.957904171, 0.0, 0.0],
+      [0.0, 0.0, -150000.0, 97796.31763623691, 0.0, 85592.38368595476]]
+
+
+@pytest.mark.timeout(120)
+def test_symmetry_tier_blocks_with_radii_of_different_sizes_are_merged():
+    # the Laplacian of direct(M^2, K(2), C(3)^2) (648 vertices) from Schur-Weyl blocks whose radii
+    # differ: two returned atoms overlapped ([1020795.5, 1020802.8] and [1020802.2, 1020814.0]).
+    # Truth: numpy eigvalsh of the Laplacian built here by Kronecker products (648 x 648); numpy's
+    # error there is far below the atoms' radii (about 1e-9 of the norm 4e7 against radii >= 0.4)
+    m = np.array(M6)
+    k2 = np.array([[0.0, 1.0], [1.0, 0.0]])
+    c3 = np.ones((3, 3)) - np.eye(3)
+    adj = m
+    for f in (m, k2, c3, c3):
+        adj = np.kron(adj, f)
+    lap = np.diag(adj.sum(axis=1)) - adj
+    ev = np.linalg.eigvalsh(lap)
+    expr = ps.direct((ps.factor(m), 2), ps.factor(k2), (ps.C(3), 2))
+    ans = ps.spectrum(expr, "laplacian")
+    balls = ans.atoms.balls()
+    assert _disjoint(balls) and ans.atoms.order == 648
+    tol = 1e-7 * float(np.linalg.norm(lap))
+    ends = [tuple(float(x) for x in (b.lower(), b.upper())) if not isinstance(b, fmpq)
+            else (float(b), float(b)) for b in balls]
+    for (lo, hi), mult in zip(ends, ans.atoms.mult.tolist(), strict=True):
+        certain = int(np.sum((ev - tol >= lo) & (ev + tol <= hi)))
+        possible = int(np.sum((ev + tol >= lo) & (ev - tol <= hi)))
+        assert certain <= mult <= possible, (lo, hi, mult, certain, possible)

@@ -6,12 +6,15 @@ becomes one atom whose ball is the hull, so every returned ball contains
 exactly as many eigenvalues as its multiplicity says).  Balls that do not
 overlap are never merged, however close they are relative to their size.
 
-For real balls the components of the union of intervals are contiguous in
-midpoint order (a ball lying between two overlapping balls meets one of
-them), so one sorted sweep with a running maximum of upper endpoints finds
-them.  Complex balls are merged by overlapping bounding boxes (a superset of
-overlapping disks: never splits a cluster, may join balls whose disks only
-nearly touch -- the hull still contains them).
+For real balls the components of the union of intervals are found by one
+sweep in order of *lower endpoints* with a running maximum of upper
+endpoints (sorting by midpoints is not enough when radii differ: [0 +- 3],
+[5 +- 0.5], [5.1 +- 2.5] -- the first and the last overlap, the middle one
+breaks a midpoint-ordered sweep).  The resulting atoms are disjoint, so
+their order by lower endpoint is their order by midpoint.  Complex balls are
+merged by overlapping bounding boxes (a superset of overlapping disks: never
+splits a cluster, may join balls whose disks only nearly touch -- the hull
+still contains them).
 
 >>> from powerspec.numbers.balls import Balls
 >>> vals, mult = merge_balls(Balls.from_floats([1.0, 1.0, 2.0], [0, 0, 0]), [1, 2, 3])
@@ -20,6 +23,8 @@ nearly touch -- the hull still contains them).
 """
 
 from __future__ import annotations
+
+import functools
 
 import numpy as np
 from flint import arb, fmpq
@@ -96,25 +101,31 @@ def merge_balls(b: Balls, mult) -> tuple[Balls, np.ndarray]:
     b, mult = b.take(o), mult[o]
     fr = _frame(b, np.arange(len(b)))
     if fr is None:
-        starts = _starts_exact(b)
+        o, starts = _starts_exact(b)
     else:
         lo, hi, _ = fr
-        run = np.maximum.accumulate(hi)
-        starts = np.flatnonzero(np.r_[True, lo[1:] > run[:-1]])
+        # sweep by lower endpoints (stable: equal ones keep midpoint order), see the docstring
+        o = np.argsort(lo, kind="stable")
+        run = np.maximum.accumulate(hi[o])
+        starts = np.flatnonzero(np.r_[True, lo[o][1:] > run[:-1]])
+    b, mult = b.take(o), mult[o]
     return _hulls(b, starts), group_sum(mult, starts)
 
 
-def _starts_exact(b: Balls) -> np.ndarray:
-    """Cluster starts by exact comparisons (for spectra spanning more than FRAME_SPAN octaves)."""
+def _starts_exact(b: Balls) -> tuple[np.ndarray, np.ndarray]:
+    """(order by lower endpoint, cluster starts in it) by exact comparisons (for spectra
+    spanning more than FRAME_SPAN octaves)."""
+    ends = [_lo_hi(hp_of(b, i)) for i in range(len(b))]
+    order = sorted(range(len(b)), key=functools.cmp_to_key(
+        lambda i, j: -1 if ends[i][0] < ends[j][0] else 1 if ends[i][0] > ends[j][0] else i - j))
     starts = [0]
     run_hi = None
-    for i in range(len(b)):
-        x = hp_of(b, i)
-        lo_i, hi_i = _lo_hi(x)
+    for pos, i in enumerate(order):
+        lo_i, hi_i = ends[i]
         if run_hi is not None and lo_i > run_hi:
-            starts.append(i)
+            starts.append(pos)
         run_hi = hi_i if run_hi is None or hi_i > run_hi else run_hi
-    return np.array(starts, dtype=np.int64)
+    return np.array(order, dtype=np.int64), np.array(starts, dtype=np.int64)
 
 
 def _lo_hi(x):
@@ -198,7 +209,7 @@ def _merge_complex(b: Balls, mult: np.ndarray) -> tuple[Balls, np.ndarray]:
 
 def _components(label: np.ndarray, key: np.ndarray, r: np.ndarray) -> np.ndarray:
     """Refine labels: within each label, split into components of [key - r, key + r] overlaps."""
-    o = np.lexsort((key, label))
+    o = np.lexsort((key - r, label))  # by lower endpoint within each label (see merge_balls)
     lo, hi = key[o] - r[o], key[o] + r[o]
     lab = label[o]
     new = np.empty_like(label)

@@ -180,14 +180,28 @@ class Spectrum:
         """Spectrum from high-precision scalars: exact rationals when all are, else balls.
 
         Short lists are merged at high precision and keep it in :attr:`hp`
-        (used for precise powers and extremes).
+        (used for precise powers and extremes).  Their values are double balls
+        when those are disjoint; when distinct atoms lie closer than a double
+        resolves, their double images overlap and the values stay at high
+        precision (domain 'hp'), so that every atom's ball still holds exactly
+        its multiplicity.  Products built from them merge the double images.
+
+        >>> with working():                       # 160 bits: 1 + 2^-70 is not 1
+        ...     x, y = arb(1) + arb(2) ** -70, arb(1) + arb(2) ** -69
+        >>> sp = Spectrum.from_hp([x, y], [1, 1])
+        >>> sp.domain, len(sp), sp.order
+        ('hp', 2, 2)
         """
         if all(isinstance(v, fmpq) for v in values):
             return cls(Rationals.from_fractions(values), mult_array(mult))
         if len(values) <= HP_KEEP:
             merged, m = _merge_hp(HPValues(values), mult_array(mult))
             balls = to_balls(merged.items).real_if_possible()
-            return cls(balls, m, merged=True, hp=tuple(merged.items))
+            if len(merge_balls(balls, m)[0]) == len(balls):
+                return cls(balls, m, merged=True, hp=tuple(merged.items))
+            # rounding each midpoint to 53 bits widens the balls until disjoint atoms overlap:
+            # as doubles they would claim each other's eigenvalues
+            return cls(merged, m, merged=True, hp=tuple(merged.items))
         return cls(to_balls(values).real_if_possible(), mult_array(mult))
 
     @classmethod
@@ -413,15 +427,20 @@ def _take(v: Values, idx) -> Values:
 def _merge_hp(v: HPValues, m: np.ndarray) -> tuple[HPValues, np.ndarray]:
     """Sort by midpoint and merge overlapping high-precision balls.
 
-    Real lists: one sweep with the running maximum of upper endpoints (the
-    clusters are contiguous in midpoint order).  Complex lists: pairwise.
+    Real lists: one sweep in order of lower endpoints with the running maximum
+    of upper endpoints (a midpoint order breaks the sweep when radii differ;
+    see :mod:`powerspec.spectra.merge`); the disjoint results are then in
+    midpoint order too.  Complex lists: pairwise, until no two overlap.
     """
-    order = sorted(range(len(v)), key=lambda i: _sort_key_hp(v.items[i]))
+    real = all(is_real(x) for x in v.items)
+    key = _lower_key if real else _sort_key_hp
+    with working():  # lower endpoints at the precision the sweep compares them
+        order = sorted(range(len(v)), key=lambda i: key(v.items[i]))
     items = [v.items[i] for i in order]
     mults = [m[i] for i in order]
     out_i: list[HP] = []
     out_m: list = []
-    if all(is_real(x) for x in items):
+    if real:
         with working():
             run = None
             for x, k in zip(items, mults, strict=True):
@@ -439,16 +458,24 @@ def _merge_hp(v: HPValues, m: np.ndarray) -> tuple[HPValues, np.ndarray]:
                     run = hi
         return HPValues(out_i), mult_array(out_m)
     for x, k in zip(items, mults, strict=True):
-        hit = next((j for j in range(len(out_i)) if _overlap(out_i[j], x)), None)
-        if hit is None:
-            out_i.append(x)
-            out_m.append(k)
-        else:
+        # the union of x with an atom may reach further atoms: absorb them until none overlaps
+        while (hit := next((j for j in range(len(out_i)) if _overlap(out_i[j], x)), None)) is not None:
             with working():
-                out_i[hit] = as_acb(out_i[hit]).union(as_acb(x))
-            out_m[hit] = out_m[hit] + k
+                x = as_acb(out_i.pop(hit)).union(as_acb(x))
+            k = out_m.pop(hit) + k
+        out_i.append(x)
+        out_m.append(k)
     order = sorted(range(len(out_i)), key=lambda i: _sort_key_hp(out_i[i]))
     return HPValues([out_i[i] for i in order]), mult_array([out_m[i] for i in order])
+
+
+def _lower_key(x: HP) -> tuple:
+    """Exact sort key of a real value's lower endpoint (the value itself when exact)."""
+    r = real_part(x)
+    if isinstance(r, fmpq):
+        return _real_key(r) + (0,)
+    # an arb's lower endpoint is exact (radius 0); ties with an exact value sort after it
+    return _real_key(r.lower()) + (1,)
 
 
 def _real_union(a: HP, b: HP) -> arb:
