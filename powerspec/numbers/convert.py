@@ -46,7 +46,12 @@ def _scaled_arb(x: arb) -> tuple[float, float, int]:
             top += 1
             rem -= 1 << shift
         mant = math.ldexp(float(top), -53)
-        err = math.ldexp(float(abs(rem)) * (1 + 2.0**-52), -b) if rem else 0.0
+        err = 0.0
+        if rem:
+            # |rem| < 2^shift may pass the double range (midpoints of more than 1077 bits):
+            # bound it from above by its leading 60 bits plus one unit of the last of them
+            cut = max(abs(rem).bit_length() - 60, 0)
+            err = math.ldexp(float((abs(rem) >> cut) + 1) * (1 + 2.0**-52), cut - b)
     exp = e + b
     rad = 0.0
     if rm:
