@@ -11,6 +11,7 @@ from hypothesis import strategies as st
 
 import powerspec as ps
 from powerspec.algebra.engine import Engine, Leaf, Product
+from powerspec.algebra.grammar import parse
 from powerspec.algebra.kinds import CARTESIAN, DIRECT, STRONG, Combination
 from tests.reference import (
     definition_product,
@@ -365,3 +366,23 @@ def test_products_match_graph_theoretic_definition(kind, n, m, data):
     eng = Engine()
     assert multiset_distance(expand(eng.spectrum(node)), np.linalg.eigvalsh(explicit)) < 1e-9
     assert multiset_distance(expand(eng.degrees(node)), explicit.sum(1)) < 1e-12
+
+
+@pytest.mark.parametrize("weight,k", [(-1.0, 2), (-49.6898667886702, 6), (-0.5, 4)])
+def test_normalized_laplacian_of_direct_powers_with_negative_factor_degrees(weight, k):
+    # The product's degrees are positive (an even number of negative factors) while each
+    # factor's are negative.  Source: numpy eigvalsh of I - D^-1/2 A D^-1/2 on the explicitly
+    # built Kronecker power (definition of the direct product and the normalized Laplacian).
+    a = np.array([[weight, 1.0], [1.0, weight]]) if weight < -1 else \
+        weight * np.array([[0.0, 1], [1, 0]])
+    text = (f"direct(loops({weight!r}, K(2))^{k})" if weight < -1
+            else f"direct(scale({weight!r}, P(2))^{k})")
+    m = a
+    for _ in range(k - 1):
+        m = np.kron(m, a)
+    d = m.sum(axis=1)
+    assert np.all(d > 0)
+    s = np.diag(d ** -0.5)
+    want = np.sort(np.linalg.eigvalsh(np.eye(len(m)) - s @ m @ s))
+    got = np.sort(expand(Engine().spectrum(parse(text), "normalized")).real)
+    assert np.max(np.abs(got - want)) < 1e-12

@@ -7,11 +7,13 @@ import math
 import mpmath
 import numpy as np
 import pytest
+from flint import arb, ctx
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 import powerspec as ps
 from powerspec.algebra.extremes import select
+from powerspec.errors import SizeLimitError
 from tests.reference import eigenvalues, expand, fold
 
 
@@ -161,3 +163,49 @@ def test_one_irregular_factor_laplacian_beyond_the_limit():
     assert got == select(full, 2, False).atoms()
     with pytest.raises(ps.NotExactError):
         ps.top(e, 2, "laplacian", limit=30)
+
+
+def _inside(ball, truth) -> bool:
+    """The mpmath value (120 digits) lies in the certified ball: compared at 400 bits."""
+    old = ctx.prec
+    ctx.prec = 400
+    try:
+        return bool(ball.contains(arb(mpmath.nstr(truth, 110))))
+    finally:
+        ctx.prec = old
+
+
+def test_bottom_of_strong_powers_with_positive_shifted_values():
+    # Every 1 + lambda of scale(1/10, K(3)) is positive (1.2, 0.9, 0.9), so the smallest
+    # eigenvalues of the strong power are the smallest products: the search runs up from the
+    # smallest magnitudes.  Source: the strong-product rule prod (1 + lambda_i) - 1 (DESIGN
+    # section 2) with K(3)'s eigenvalues 2, -1, -1 (textbook), evaluated in mpmath at 80 digits;
+    # multiplicities C(k, a) 2^(k - a) for a copies at 1.2 (exact integers)
+    from powerspec.queries import planner
+    k = 1000
+    ans = planner.top(f"strong(scale(1/10, K(3))^{k})", m=3, bottom=True)
+    atoms = ans.atoms.atoms()
+    balls = ans.atoms.balls()
+    # the factor holds the double nearest 1/10 (matrices are float64): the reference uses it
+    w = mpmath.mpf(0.1)
+    with mpmath.workdps(120):
+        for a, (ball, (_, mult)) in enumerate(zip(balls, atoms, strict=True)):
+            truth = (1 + 2 * w) ** a * (1 - w) ** (k - a) - 1
+            assert _inside(ball, truth), (a, ball, truth)
+            assert int(mult) == math.comb(k, a) * 2 ** (k - a)
+    # at k = 10^6 those values are within 10^-45000 of -1, beyond 160-bit separation: refused
+    with pytest.raises(SizeLimitError, match="closer together than 160-bit"):
+        planner.top("strong(scale(1/10, K(3))^1000000)", m=3, bottom=True)
+
+
+def test_bottom_of_a_strong_power_of_a_tiny_weight():
+    # source: C(7) eigenvalues 2cos(2 pi j/7) (textbook); 1 + 1e-12 * 2cos(6 pi/7) is the smallest
+    # 1 + lambda (j = 3, 4), so the smallest eigenvalue of the strong 1000th power is
+    # (1 + 2e-12 cos(6 pi/7))^1000 - 1 with multiplicity 2^1000 (mpmath, 60 digits)
+    from powerspec.queries import planner
+    ans = planner.top("strong(scale(1/1000000000000, C(7))^1000)", m=1, bottom=True)
+    (ball,), ((_, mult),) = ans.atoms.balls(), ans.atoms.atoms()
+    with mpmath.workdps(120):  # the weight is the double nearest 10^-12, as the factor holds it
+        truth = (1 + mpmath.mpf(1e-12) * 2 * mpmath.cos(6 * mpmath.pi / 7)) ** 1000 - 1
+        assert _inside(ball, truth), (ball, truth)
+    assert int(mult) == 2**1000

@@ -25,6 +25,7 @@ import numpy as np
 from flint import arb, fmpq
 
 from powerspec.algebra.kinds import (
+    DIRECT,
     MATRIX_KINDS,
     MATRIX_RULES,
     NON_EXACT_REASON,
@@ -188,6 +189,8 @@ class Engine:
                              "use --matrix laplacian or transition")
         rule = MATRIX_RULES[kind](node.comb)
         if rule is not None:
+            if self._via_transition(node, kind):
+                return affine(self.spectrum(node, "transition"), Fraction(1), Fraction(-1))
             return self._combine(rule, [(self.spectrum(c, kind), k) for c, k in node.operands])
         if kind in ("laplacian", "signless") and not self.is_regular(node):
             blocks = self._one_irregular(node, kind)
@@ -195,6 +198,35 @@ class Engine:
                 return blocks
         shift, factor = self._regular_form(node, kind)
         return affine(self.spectrum(node, "adjacency"), shift, factor)
+
+    def _via_transition(self, node: Node, kind: str) -> bool:
+        """True for the normalized Laplacian of a direct product whose own degrees are all
+        positive while some factor's are not (-1 * -1 = 1).
+
+        N = I - D^-1/2 A D^-1/2 is then similar to I - P, and the transition matrix
+        P = D^-1 A of a direct product is the Kronecker product of the factors' (defined
+        for any non-zero degrees), so spec(N) = 1 - spec(P) exactly.
+        """
+        if kind != "normalized" or not isinstance(node, Product) or node.comb != DIRECT:
+            return False
+        if self._degree_sign(node) != 1:
+            return False
+        return any(min(f.exact_degrees(self.direction)) <= 0 for f in node.leaves())
+
+    def _degree_sign(self, node: Node) -> int:
+        """+1 or -1 when every degree of a direct product of factors has that sign, else 0.
+
+        Exact (the degrees are exact rationals); 0 also for other product kinds.
+        """
+        if isinstance(node, Leaf):
+            signs = {(d > 0) - (d < 0) for d in node.factor.exact_degrees(self.direction)}
+            return signs.pop() if len(signs) == 1 else 0
+        if node.comb != DIRECT:
+            return 0
+        out = 1
+        for child, k in node.operands:
+            out *= self._degree_sign(child) ** (2 - k % 2)  # the sign to the k, 0 stays 0
+        return out
 
     def linear_form(self, node: Product, kind: str):
         """(combination, operand kind, (shift, factor)) with M = shift + factor * (rule spectrum).
@@ -204,6 +236,8 @@ class Engine:
         Fractions, or balls for astronomically large degrees).  Raises
         NotExactError when no such form exists.
         """
+        if self._via_transition(node, kind):
+            return MATRIX_RULES["transition"](node.comb), "transition", (Fraction(1), Fraction(-1))
         rule = MATRIX_RULES[kind](node.comb)
         if rule is not None:
             return rule, kind, (Fraction(0), Fraction(1))
@@ -320,6 +354,8 @@ class Engine:
         return self._bound(node, kind)
 
     def _bound(self, node: Node, kind: str) -> int:
+        if self._via_transition(node, kind):
+            return self._bound(node, "transition")
         if isinstance(node, Leaf):
             if kind == "#degree":
                 return len(set(node.factor.exact_degrees(self.direction)))

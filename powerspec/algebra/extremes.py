@@ -49,6 +49,9 @@ MAX_STATES = 200_000
 SMALL_SEARCH_STATES = 2_000
 """States the search may visit (plus 50 per wanted atom) for a product small enough to enumerate."""
 
+STUCK_STATES = 1_000
+"""States after which a search whose wanted end cannot be separated from the rest may refuse."""
+
 MAX_MULT_BITS = 1 << 23
 """Largest multiplicity (in bits) computed by expanding a multinomial with two large parts."""
 
@@ -429,15 +432,30 @@ def _best_first_mul(comb: Combination, parts, m: int, up: bool, order,
     ops = []
     zero_free = 1
     real = True
+    any_zero = False
+    sign = 1  # the common sign of every product, when each operand's s-values share one sign
     for vals, ms, k in parts:
         cls, zeros = _classes(vals, ms, shift, factor)
         ops.append((cls, k))
         total = sum(ms)
         zero_free = zero_free * _count_pow(total - zeros, k) if total - zeros else 0
         real = real and all(c.phases is None for c in cls)
+        any_zero = any_zero or zeros > 0
+        if sign and real and all(c.neg == 0 for c in cls):
+            pass
+        elif sign and real and all(c.pos == 0 for c in cls):
+            sign = sign * (-1) ** (k % 2)
+        else:
+            sign = 0
     # s = shift + factor x: the wanted end of x is the wanted end of s when factor > 0
     s_up = up if factor > 0 else not up
     sigma = 1 if s_up else -1
+    # every product has the one sign opposite to the wanted end (e.g. the bottom of a strong
+    # power whose 1 + lambda are all positive): the wanted end is the smallest |s|, so the
+    # search runs up from the smallest magnitudes instead of down from the largest
+    ascending = real and not any_zero and sign == -sigma
+    if ascending:
+        ops = [(cls[::-1], k) for cls, k in ops]
     found_s: list[HP] = []
     found_m: list = []
     if any(len(cls) == 0 for cls, _ in ops):
@@ -450,6 +468,8 @@ def _best_first_mul(comb: Combination, parts, m: int, up: bool, order,
         tops = np.repeat(offsets[:-1], np.diff(offsets))
         dl = [lg[i] - lg[t] for i, t in enumerate(tops)]
         dlog = np.array([float(d.mid()) for d in dl])
+        if ascending:  # the heap pops the largest key: the smallest growth of log|s| first
+            dlog = -dlog
         derr = np.array([float(d.rad()) + abs(float(d.mid())) * 4 * _U for d in dl]) * 1.01
         base_log = arb(0)
         for j, (_cls, k) in enumerate(ops):
@@ -466,6 +486,7 @@ def _best_first_mul(comb: Combination, parts, m: int, up: bool, order,
     eps = 0.0
     visited = 0
     next_check = m
+    stuck_run = 0
     while heap:
         neg, state = heapq.heappop(heap)
         visited += 1
@@ -482,29 +503,56 @@ def _best_first_mul(comb: Combination, parts, m: int, up: bool, order,
                 eps = max(eps, ke)
                 heapq.heappush(heap, (-kv, nxt))
         if heap and len(found_s) >= next_check:
-            if _enough_mul(found_s, found_m, m, sigma, base_log, -heap[0][0] + eps):
+            # every unexplored s has sigma * s <= bound: below exp(base_log + top key) in |s|
+            # (descending), or of the unwanted sign and at least exp(base_log - top key) in |s|
+            # (ascending)
+            with working():
+                if ascending:
+                    bound = -(base_log + arb(fmpq(*float(heap[0][0] - eps).as_integer_ratio()))).exp()
+                else:
+                    bound = (base_log + arb(fmpq(*float(-heap[0][0] + eps).as_integer_ratio()))).exp()
+            count, stuck = _certified_x(found_s, found_m, comb, sigma * bound, up)
+            if count >= m:
                 return _finish_mul(found_s, found_m, None, comb)
+            stuck_run = stuck_run + 1 if stuck else 0
+            # ties at the bound clear within a check or two; a run of checks whose most extreme
+            # ball keeps holding the bound means the precision, not the search, is the limit
+            if stuck_run >= 6 and visited > STUCK_STATES:
+                raise SizeLimitError(
+                    "the wanted eigenvalues lie closer together than 160-bit precision separates "
+                    "(many distinct values share one ball once shifted back); ask for the other "
+                    "end, or for cdf/count, whose bounds hold at any resolution")
             next_check = len(found_s) + max(1, len(found_s) // 8)
     # every non-zero value is known; the rest of the spectrum sits at s = 0
     zero_count = order - zero_free if zero_free else order
     return _finish_mul(found_s, found_m, zero_count, comb)
 
 
-def _enough_mul(vals: list[HP], mults: list, m: int, sigma: int, base_log, rel: float) -> bool:
-    """True when m merged s-atoms have sigma * Re(s) certainly above exp(base_log + rel)."""
-    if len(vals) < m:
-        return False
+def _certified_x(vals: list[HP], mults: list, comb: Combination, s_bound: arb,
+                 up: bool) -> tuple[int, bool]:
+    """(number of wanted x-atoms certainly beyond every unexplored value, stuck).
+
+    Unexplored s-values lie on the unwanted side of ``s_bound``; the check is made on the
+    eigenvalues x = (s - shift) / factor after merging, because s-values that are distinct
+    may overlap once shifted back (1 + tiny - 1), and a merged atom is complete only when
+    no unexplored value can fall inside it.  ``stuck`` is True when the most extreme merged
+    atom itself contains the bound's image: unexplored values may lie inside it.
+    """
+    if not vals:
+        return 0, False
+    sp = _finish_mul(vals, mults, None, comb)
+    back_shift, back_factor = comb.from_s()
+    count = 0
     with working():
-        b = (base_log + arb(fmpq(*float(rel).as_integer_ratio()))).exp()
-        keep = []
-        for x, mm in zip(vals, mults, strict=True):
+        xb = _hp(back_shift) + _hp(back_factor) * s_bound
+        balls = sp.balls()
+        for x in (balls[::-1] if up else balls):
             r = real_part(x)
             r = arb(r) if isinstance(r, fmpq) else r
-            if r * sigma > b:
-                keep.append((x, mm))
-    if len(keep) < m:
-        return False
-    return len(Spectrum(HPValues([x for x, _ in keep]), mult_array([mm for _, mm in keep]))) >= m
+            if not (r > xb if up else r < xb):
+                return count, count == 0 and r.overlaps(xb)
+            count += 1
+    return count, False
 
 
 def _class_values(state: tuple, ops, offsets, real: bool):
