@@ -215,7 +215,7 @@ def spectral_gaps(cx: Context) -> tuple[dict, dict]:
 
     >>> from powerspec.algebra.grammar import parse
     >>> g = [e["value"] for e in spectral_gaps(Context(parse("direct(P(3)^3)"), 1000, "out", 1.0))]
-    >>> g[0], g[1].contains(8 ** 0.5 - 0)         # 2 sqrt 2 - 0: the next distinct value is 0
+    >>> g[0], g[1].overlaps(arb(8).sqrt())       # 2 sqrt 2 - 0: the next distinct value is 0
     (0, True)
     """
     if not cx.undirected:
