@@ -5,7 +5,9 @@
 * :mod:`~powerspec.algebra.rules` -- a rule applied to value vectors of any number domain;
 * :mod:`~powerspec.algebra.powers` -- pairwise products, k-th powers, left folds;
 * :mod:`~powerspec.algebra.engine` -- certified spectra of nodes for every matrix kind;
-* :mod:`~powerspec.algebra.extremes` -- certified extremes of any power;
+* :mod:`~powerspec.algebra.extremes` -- certified extremes of any power (additive search,
+  selection); ``extremes_mul`` -- the multiplicative search over magnitude classes;
+  ``compositions`` -- the search states and their exact multiplicities;
 * :mod:`~powerspec.algebra.grammar`, ``grammar_syntax``, ``limits`` -- the expression language;
 * :mod:`~powerspec.algebra.build` -- the API's product functions;
 * ``moments``, ``moment_*``, ``words`` -- exact traces tr(M^p) of any product;
