@@ -209,3 +209,15 @@ def test_bottom_of_a_strong_power_of_a_tiny_weight():
         truth = (1 + mpmath.mpf(1e-12) * 2 * mpmath.cos(6 * mpmath.pi / 7)) ** 1000 - 1
         assert _inside(ball, truth), (ball, truth)
     assert int(mult) == 2**1000
+
+
+def test_exact_class_powers_stay_exact():
+    # strong(K(3)^700) is the complete graph on N = 3^700 vertices (K(3)'s 1 + lambda are 3 and
+    # 0, so every product is 3^700 - 1 once or -1): its Laplacian is N I - J, eigenvalues N
+    # (N - 1 times) and 0 -- textbook; both must come back as exact integers, not balls
+    from powerspec.queries import planner
+    ans = planner.top("strong(K(3)^700)", m=2, matrix="laplacian")
+    assert ans.atoms.is_exact
+    (zero, top), (m_zero, m_top) = ans.atoms.balls(), ans.atoms.mult.tolist()  # ascending
+    assert zero == 0 and int(m_zero) == 1
+    assert top == 3**700 and int(m_top) == 3**700 - 1

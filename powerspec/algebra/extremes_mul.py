@@ -244,7 +244,8 @@ def _class_values(state: tuple, ops, offsets, real: bool):
             for c, cl in zip(counts, cls, strict=True):
                 if not c:
                     continue
-                mag = mag * (cl.mag ** c if isinstance(cl.mag, fmpq) and c * 64 < 1 << 14
+                # exact while the power stays below 2^16384 (3^700 is 1110 bits), a ball beyond
+                mag = mag * (cl.mag ** c if isinstance(cl.mag, fmpq) and _bits(cl.mag) * c <= 1 << 14
                              else (arb(cl.mag) if isinstance(cl.mag, fmpq) else cl.mag) ** c)
                 if real:
                     weight = weight * count_pow(cl.pos + cl.neg, c)
@@ -266,6 +267,10 @@ def _class_values(state: tuple, ops, offsets, real: bool):
             return out
         return [(mag * z, mm * weight) for z, mm in zip(phase.balls(), phase.mult.tolist(),
                                                          strict=True)]
+
+
+def _bits(x: fmpq) -> int:
+    return max(int(x.p).bit_length(), int(x.q).bit_length())
 
 
 def _sign_phases(cl: _Class) -> Spectrum:
