@@ -326,3 +326,20 @@ def test_symmetry_tier_keeps_close_eigenvalues_apart():
         lo, hi = (float(b), float(b)) if isinstance(b, fmpq) else (float(b.lower()), float(b.upper()))
         inside = ev[(ev >= lo - 1e-17) & (ev <= hi + 1e-17)]
         assert inside.size == 0 or inside.max() - inside.min() < 1e-15, (lo, hi, inside)
+
+
+def test_merged_unions_never_overlap_a_closed_atom():
+    # The bottom of strong(loops(1/2, P(3))^60): 1 + lambda takes 3/2 and 3/2 +- sqrt 2 (P(3)'s
+    # eigenvalues 0, +-sqrt 2, textbook), so the smallest eigenvalues are -1 + products of
+    # powers; thousands of them lie within 1.3e-46 of -1.  A union ball of the merge sweep once
+    # reached below an atom it had already closed, which then overlapped it and its count was
+    # short (7361087419984779).  Source: an exact enumeration in mpmath (120 digits) over the
+    # compositions a^i b^j c^(60-i-j) with multinomial weights counts 29519842464745554
+    # eigenvalues within 1.25e-46 of -1 and none between that and 1.5e-46.
+    from powerspec.numbers.hp import working
+    from powerspec.queries import planner
+    ans = planner.top("strong(loops(1/2, P(3))^60)", m=2, bottom=True)
+    balls = ans.atoms.balls()
+    with working():
+        assert not balls[0].overlaps(balls[1])
+    assert int(ans.atoms.mult[0]) == 29519842464745554

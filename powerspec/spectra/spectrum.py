@@ -456,6 +456,11 @@ def _merge_hp(v: HPValues, m: np.ndarray) -> tuple[HPValues, np.ndarray]:
                     out_i.append(r)
                     out_m.append(k)
                     run = hi
+        # a union is a ball: its midpoint rounding can reach below the lower endpoints of its
+        # parts and so overlap an atom the sweep already closed; sweep again until none does
+        if len(out_i) < len(items) and any(
+                _overlap(out_i[i], out_i[i + 1]) for i in range(len(out_i) - 1)):
+            return _merge_hp(HPValues(out_i), mult_array(out_m))
         return HPValues(out_i), mult_array(out_m)
     for x, k in zip(items, mults, strict=True):
         # the union of x with an atom may reach further atoms: absorb them until none overlaps
