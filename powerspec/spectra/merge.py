@@ -109,7 +109,23 @@ def merge_balls(b: Balls, mult) -> tuple[Balls, np.ndarray]:
         run = np.maximum.accumulate(hi[o])
         starts = np.flatnonzero(np.r_[True, lo[o][1:] > run[:-1]])
     b, mult = b.take(o), mult[o]
-    return _hulls(b, starts), group_sum(mult, starts)
+    out, m = _hulls(b, starts), group_sum(mult, starts)
+    # a hull is a ball rounded outward: it can reach the next group across a gap of an ulp;
+    # merge again until no two results overlap
+    if len(out) < len(b) and _neighbours_overlap(out):
+        return merge_balls(out, m)
+    return out, m
+
+
+def _neighbours_overlap(b: Balls) -> bool:
+    """True when two consecutive balls of a sorted real list overlap (outward-rounded test)."""
+    fr = _frame(b, np.arange(len(b)))
+    if fr is None:
+        ends = [_lo_hi(hp_of(b, i)) for i in range(len(b))]
+        return any(not (ends[i + 1][0] > ends[i][1]) for i in range(len(b) - 1))
+    lo, hi, _ = fr
+    o = np.argsort(lo, kind="stable")
+    return bool(np.any(lo[o][1:] <= np.maximum.accumulate(hi[o])[:-1]))
 
 
 def _starts_exact(b: Balls) -> tuple[np.ndarray, np.ndarray]:
