@@ -23,11 +23,9 @@ from __future__ import annotations
 
 import os
 import re
-import statistics
 import subprocess
 import sys
 import tempfile
-import time
 from pathlib import Path
 
 import numpy as np
@@ -35,20 +33,13 @@ import numpy as np
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))  # run from a checkout
 
+from timing import median_time  # noqa: E402  (benchmarks/timing.py, beside this script)
+
 from powerspec.queries.distribution import _Query, cdf, quantile  # noqa: E402
 
 REPEATS = 5
 BASELINE_COMMIT = "7ea1e90"
 PY = sys.executable
-
-
-def median_time(fn, repeats: int = REPEATS) -> float:
-    ts = []
-    for _ in range(repeats):
-        t = time.perf_counter()
-        fn()
-        ts.append(time.perf_counter() - t)
-    return statistics.median(ts)
 
 
 def proc_time(args: list[str], cwd: str | None = None, env=None, repeats: int = REPEATS) -> float:

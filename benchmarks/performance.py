@@ -36,6 +36,8 @@ import numpy as np
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))  # run from a checkout
 
+import timing  # noqa: E402  (benchmarks/timing.py, beside this script)
+
 import powerspec as ps  # noqa: E402
 from powerspec.queries.distribution import cdf, quantile  # noqa: E402
 
@@ -45,14 +47,8 @@ BARE = [PY, "-c", "import numpy, scipy.special, mpmath"]
 
 
 def median_time(fn, repeats: int = REPEATS, warm: bool = True) -> float:
-    if warm:
-        fn()
-    ts = []
-    for _ in range(repeats):
-        t = time.perf_counter()
-        fn()
-        ts.append(time.perf_counter() - t)
-    return statistics.median(ts)
+    """The shared timing (benchmarks/timing.py), warmed up by default in this script."""
+    return timing.median_time(fn, repeats, warm)
 
 
 def proc(args: list[str], repeats: int = REPEATS) -> tuple[float, float]:
