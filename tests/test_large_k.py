@@ -354,23 +354,14 @@ def test_cartesian_power_extremes(name, k, bottom):
 @pytest.mark.parametrize("k", KS)
 @pytest.mark.parametrize("name", FACTORS)
 @pytest.mark.parametrize("bottom", [False, True])
+@pytest.mark.parametrize("kind,shift", [("direct", 0), ("strong", 1)])
 @pytest.mark.timeout(60)
-def test_direct_power_extremes(name, k, bottom):
+def test_multiplicative_power_extremes(kind, shift, name, k, bottom):
+    # direct: products of the eigenvalues; strong: products of 1 + eigenvalue, minus 1
     m = 3
-    ans = ps.top(f"direct({name}^{k})", m, bottom=bottom)
-    compare(ans, multiplicative_extremes(name, k, m, bottom, shift=0),
-            f"direct({name}^{k}) bottom={bottom}")
-
-
-@pytest.mark.parametrize("k", KS)
-@pytest.mark.parametrize("name", FACTORS)
-@pytest.mark.parametrize("bottom", [False, True])
-@pytest.mark.timeout(60)
-def test_strong_power_extremes(name, k, bottom):
-    m = 3
-    ans = ps.top(f"strong({name}^{k})", m, bottom=bottom)
-    compare(ans, multiplicative_extremes(name, k, m, bottom, shift=1),
-            f"strong({name}^{k}) bottom={bottom}")
+    ans = ps.top(f"{kind}({name}^{k})", m, bottom=bottom)
+    compare(ans, multiplicative_extremes(name, k, m, bottom, shift=shift),
+            f"{kind}({name}^{k}) bottom={bottom}")
 
 
 @pytest.mark.parametrize("k", KS)
