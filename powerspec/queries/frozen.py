@@ -92,8 +92,13 @@ class SpectralDistribution:
 
     # ------------------------------------------------------------ primitives
     def _cdf3(self, x: np.ndarray, strict: bool):
-        """Float arrays (estimate, lower, upper) of P(X <= x) (P(X < x) if strict)."""
-        raise NotImplementedError
+        """Float arrays (estimate, lower, upper) of P(X <= x) (P(X < x) if strict).
+
+        The one primitive each tier's subclass defines (exact, bracket, law, moments);
+        every public method is derived from it and from :meth:`_ppf3`.
+        """
+        raise NotImplementedError(f"{type(self).__name__} is a base class: each tier's "
+                                  "distribution defines _cdf3")
 
     def _ppf3(self, levels: list[Fraction]):
         """Lists (estimate, lower, upper) of the quantiles at exact rational levels."""
