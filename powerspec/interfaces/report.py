@@ -69,19 +69,14 @@ def share_text(part: Any, whole: Any) -> str:
     ('3/8 (0.375)', '1/2', '0.0000285183483727')
     >>> share_text(3**60 - 2**70, 3**60)                # 2^70 / 3^60 = 2.78...e-8
     '1 - 2.78499495827e-8'
-
     """
-    if isinstance(part, int) and isinstance(whole, int):
-        f = Fraction(part, whole)  # 2^(k-1) / 2^k is 1/2 at any k
-        if f.numerator.bit_length() + f.denominator.bit_length() > 90:  # over 24 digits
-            f = None
-    else:
-        f = None
-    if f is not None:
-        if f.denominator == 1 or (len(str(f.numerator)) + len(str(f.denominator)) <= 12
-                                  and f.denominator in (2, 4, 5, 10)):
+    # reduced first: 2^(k-1) / 2^k is 1/2 at any k; digits are counted only when short
+    f = Fraction(part, whole) if isinstance(part, int) and isinstance(whole, int) else None
+    if f is not None and f.numerator.bit_length() + f.denominator.bit_length() <= 90:
+        digits = len(str(f.numerator)) + len(str(f.denominator))
+        if f.denominator == 1 or (digits <= 12 and f.denominator in (2, 4, 5, 10)):
             return str(f)
-        if len(str(f.numerator)) + len(str(f.denominator)) <= 24:
+        if digits <= 24:
             return f"{f} ({float(f):.6g})"
     ball = fraction_of(part, whole)
     if ball > 0.5 and ball.mid() > 1 - 1e-6:
