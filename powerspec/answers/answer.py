@@ -177,15 +177,7 @@ class Answer:
         lines = [f"  {'atoms':<11} {n} distinct ({_eigenvalues(total)})"]
         if len(shown) < n:
             lines.append(f"  {'':<11} showing the first {len(shown)}")
-        rows = []
-        inexact = False
-        for v, m in shown:
-            # exact integer atoms (hypercubes, Hamming graphs) need no digit search
-            # an exact integer atom is written like an exact count (rounded leading digits and
-            # its length past 40 digits); a ball keeps every digit its radius covers
-            t, r = (count_text(int(v.p)), 0) if isinstance(v, fmpq) and v.q == 1 else ball_text(v)
-            inexact = inexact or r != 0
-            rows.append((t, radius_text(r) if r else "exact", count_text(m)))
+        rows, inexact = atom_rows(shown)
         lines.append("")
         w = max([len("eigenvalue")] + [len(a) for a, _, _ in rows])
         wr = max([len("radius")] + [len(b) for _, b, _ in rows])
@@ -196,6 +188,23 @@ class Answer:
             lines.append(f"  {'eigenvalue':>{w}}  multiplicity")
             lines.extend(f"  {a:>{w}}  {c}" for a, _, c in rows)
         return lines
+
+
+def atom_rows(pairs) -> tuple[list[tuple[str, str, str]], bool]:
+    """(rows of (eigenvalue, radius, multiplicity) texts, True when any radius is not 0).
+
+    An exact integer atom is written like an exact count (rounded leading digits and its
+    length past 40 digits, no digit search); a ball keeps every digit its radius covers.
+
+    >>> atom_rows([(fmpq(4), 1), (fmpq(1, 2), 6)])
+    ([('4', 'exact', '1'), ('0.5', 'exact', '6')], False)
+    """
+    rows, inexact = [], False
+    for v, m in pairs:
+        t, r = (count_text(int(v.p)), 0) if isinstance(v, fmpq) and v.q == 1 else ball_text(v)
+        inexact = inexact or r != 0
+        rows.append((t, radius_text(r) if r else "exact", count_text(m)))
+    return rows, inexact
 
 
 # ------------------------------------------------------------------ numbers

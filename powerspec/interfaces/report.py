@@ -38,9 +38,9 @@ from typing import Any
 
 from flint import acb, arb, fmpq
 
-from powerspec.answers.answer import Answer, count_text, value_text
+from powerspec.answers.answer import Answer, atom_rows, count_text, value_text
 from powerspec.numbers.counts import BigCount, fraction_of
-from powerspec.numbers.digits import ball_text, radius_text
+from powerspec.numbers.digits import ball_text
 
 SUMMARY_AT = 60
 """Spectra with more distinct eigenvalues than this print a summary by default."""
@@ -122,17 +122,6 @@ def _atoms_line(ans: Answer, n: int) -> str:
     return f"  {'atoms':<11} {_plural(n, 'distinct eigenvalue')}, {count_text(total)} {counted}"
 
 
-def _rows(pairs) -> tuple[list[tuple[str, str, str]], bool]:
-    rows, inexact = [], False
-    for v, m in pairs:
-        # an exact integer atom is written like an exact count (rounded leading digits and
-        # its length past 40 digits); a ball keeps every digit its radius covers
-        t, r = (count_text(int(v.p)), 0) if isinstance(v, fmpq) and v.q == 1 else ball_text(v)
-        inexact = inexact or r != 0
-        rows.append((t, radius_text(r) if r else "exact", count_text(m)))
-    return rows, inexact
-
-
 def _table(rows, inexact: bool, gap_after: int | None, left_out: int) -> list[str]:
     w = max([len("eigenvalue")] + [len(a) for a, _, _ in rows])
     wr = max([len("radius")] + [len(b) for _, b, _ in rows])
@@ -165,7 +154,7 @@ def atom_lines(ans: Answer, head: int | None = None, full: bool = False) -> list
         lines.append(f"  {'':<11} summary: the {SUMMARY_ENDS} {order} of {n} rows")
     else:
         shown = pairs
-    rows, inexact = _rows(shown)
+    rows, inexact = atom_rows(shown)
     lines.append("")
     lines.extend(_table(rows, inexact, gap, left))
     return lines
