@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import json
 import math
+from collections.abc import Iterable
 from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import Any
@@ -33,7 +34,7 @@ from flint import acb, arb, fmpq
 
 from powerspec.errors import InputError
 from powerspec.numbers.counts import BigCount, to_arb
-from powerspec.numbers.digits import ball_text, int_text, json_text, radius_text
+from powerspec.numbers.digits import JSON_INT_DIGITS, ball_text, int_text, json_text, radius_text
 from powerspec.numbers.hp import working
 from powerspec.spectra.spectrum import Spectrum
 
@@ -102,8 +103,12 @@ class Answer:
         return self.as_dict()[key]
 
     # ------------------------------------------------------------- JSON
-    def to_dict(self) -> dict:
-        """The JSON object as Python data (numbers that must stay verbatim as :class:`RawNumber`)."""
+    def to_dict(self, head: int | None = None) -> dict:
+        """The JSON object as Python data (numbers that must stay verbatim as :class:`RawNumber`).
+
+        ``head`` keeps the first rows of ``atoms`` / ``radii`` only (nothing past them is
+        converted to digits).
+        """
         out: dict[str, Any] = {
             "expression": self.expression,
             "matrix": self.matrix,
@@ -111,10 +116,14 @@ class Answer:
             "method": self.method,
         }
         if self.atoms is not None:
+            pairs = self.listed_atoms()
+            if head is not None and len(pairs) > head:
+                out["distinct"] = len(pairs)
+                pairs = pairs[:head]
             atoms, radii = [], []
-            for v, m in self.listed_atoms():
+            for (v, _), jm in zip(pairs, json_counts(m for _, m in pairs), strict=True):
                 jv, r = json_value(v)
-                atoms.append([jv, json_count(m)])
+                atoms.append([jv, jm])
                 radii.append(_json_radius(r))
             out["atoms"] = atoms
             out["radii"] = radii
@@ -137,7 +146,7 @@ class Answer:
 
     def to_json(self) -> str:
         """Serialise to JSON text (keys of DESIGN §4); Python's json.loads reads it back."""
-        return dump_json(self.to_dict()) + "\n"
+        return dump_json(self.to_dict(), end="\n")
 
     # ------------------------------------------------------------- text
     def to_text(self, head: int | None = None) -> str:
@@ -200,16 +209,25 @@ def atom_rows(pairs) -> tuple[list[tuple[str, str, str]], bool]:
     ([('4', 'exact', '1'), ('0.5', 'exact', '6')], False)
     """
     rows, inexact = [], False
-    for v, m in pairs:
-        t, r = (count_text(int(v.p)), 0) if isinstance(v, fmpq) and v.q == 1 else ball_text(v)
+    whole = [isinstance(v, fmpq) and v.q == 1 for v, _ in pairs]
+    # one batch for the integer atoms and one for the multiplicities: one precision switch
+    # each, and equal long counts (palindromic rows) formatted once
+    ints = iter(count_texts(int(v.p) for (v, _), w in zip(pairs, whole, strict=True) if w))
+    mults = count_texts(m for _, m in pairs)
+    for (v, _), w, mt in zip(pairs, whole, mults, strict=True):
+        t, r = (next(ints), 0) if w else ball_text(v)
         inexact = inexact or r != 0
-        rows.append((t, radius_text(r) if r else "exact", count_text(m)))
+        rows.append((t, radius_text(r) if r else "exact", mt))
     return rows, inexact
 
 
 # ------------------------------------------------------------------ numbers
 class RawNumber(str):
     """A JSON number literal written verbatim (certified digits, read back by any parser)."""
+
+
+class DigitText(str):
+    """A long exact count's decimal digits: a JSON string that needs no escaping pass."""
 
 
 def _plain(m):
@@ -225,7 +243,33 @@ def json_count(n: Any) -> Any:
     if isinstance(n, BigCount):
         return str(n)
     t = int_text(int(n))  # one conversion; its length decides number or string
-    return RawNumber(t) if len(t.lstrip("-")) <= 4000 else t
+    return RawNumber(t) if len(t.lstrip("-")) <= JSON_INT_DIGITS else DigitText(t)
+
+
+def json_counts(ns: Iterable[Any]) -> list[Any]:
+    """:func:`json_count` of each count, converting each distinct long integer once.
+
+    Multiplicity rows of powers are often palindromic (binomial rows), so half of the
+    decimal conversions -- the dominant cost of a large ``--json`` -- are repeats.
+
+    >>> json_counts([3, 2**13300, 2**13300])[0], len(json_counts([2**13300] * 2)[1])
+    ('3', 4004)
+    """
+    memo: dict[int, Any] = {}
+    out = []
+    for n in ns:
+        if isinstance(n, BigCount):
+            out.append(str(n))
+            continue
+        n = int(n)
+        if n.bit_length() < 3000:  # under 904 digits: no conversion worth remembering
+            out.append(RawNumber(str(n)))
+            continue
+        t = memo.get(n)
+        if t is None:
+            t = memo[n] = json_count(n)
+        out.append(t)
+    return out
 
 
 def json_value(v: Any) -> tuple[Any, Any]:
@@ -278,32 +322,54 @@ def _json_radius(r) -> Any:
     return RawNumber(t2) if is_num else t2
 
 
-def dump_json(obj: Any) -> str:
-    """JSON text for dicts, lists, str, int, float, bool, None and RawNumber.
+def dump_json(obj: Any, end: str = "") -> str:
+    """JSON text for dicts, lists, str, int, float, bool, None and RawNumber (then ``end``).
 
-    >>> dump_json({"a": [1, 2.5, RawNumber("1.25")]})
-    '{"a": [1, 2.5, 1.25]}'
+    The text is assembled from a flat list of pieces joined once, so the long digit
+    strings of exact counts are copied once, not once per nesting level.
+
+    >>> dump_json({"a": [1, 2.5, RawNumber("1.25")], "b": DigitText("12")})
+    '{"a": [1, 2.5, 1.25], "b": "12"}'
     """
+    parts: list[str] = []
+    _emit(obj, parts)
+    parts.append(end)  # here, not by the caller: a str of hundreds of MB is not copied again
+    return "".join(parts)
+
+
+def _emit(obj: Any, out: list[str]) -> None:
+    """Append the JSON pieces of ``obj`` to ``out``."""
     if isinstance(obj, RawNumber):
-        return str(obj)
-    if isinstance(obj, BigCount):
-        return json.dumps(str(obj))
-    if isinstance(obj, bool) or obj is None:
-        return json.dumps(obj)
-    if isinstance(obj, int):
-        return dump_json(json_count(obj))
-    if isinstance(obj, float):
+        out.append(obj)
+    elif isinstance(obj, DigitText):  # digits only: nothing to escape, so no pass over them
+        out += ('"', obj, '"')
+    elif isinstance(obj, BigCount):
+        out.append(json.dumps(str(obj)))
+    elif isinstance(obj, bool) or obj is None:
+        out.append(json.dumps(obj))
+    elif isinstance(obj, int):
+        _emit(json_count(obj), out)
+    elif isinstance(obj, float):
         if not math.isfinite(obj):
             raise InputError("internal: a non-finite number reached the output")
-        return json.dumps(obj)
-    if isinstance(obj, str):
-        # long exact counts are plain digits: nothing to escape, so no pass of the encoder
-        return f'"{obj}"' if obj.isascii() and obj.isdigit() else json.dumps(obj)
-    if isinstance(obj, dict):
-        return "{" + ", ".join(f"{json.dumps(str(k))}: {dump_json(v)}" for k, v in obj.items()) + "}"
-    if isinstance(obj, (list, tuple)):
-        return "[" + ", ".join(dump_json(v) for v in obj) + "]"
-    return dump_json(json_value(obj)[0])
+        out.append(json.dumps(obj))
+    elif isinstance(obj, str):
+        out.append(json.dumps(obj))
+    elif isinstance(obj, dict):
+        out.append("{")
+        for i, (k, v) in enumerate(obj.items()):
+            out += (", " if i else "", json.dumps(str(k)), ": ")
+            _emit(v, out)
+        out.append("}")
+    elif isinstance(obj, (list, tuple)):
+        out.append("[")
+        for i, v in enumerate(obj):
+            if i:
+                out.append(", ")
+            _emit(v, out)
+        out.append("]")
+    else:
+        _emit(json_value(obj)[0], out)
 
 
 def count_text(n: Any) -> str:
@@ -321,41 +387,78 @@ def count_text(n: Any) -> str:
     >>> count_text(BigCount.power(3, 10**6) - 2**(10**6))    # 3^k - 2^k, 2^k written out
     '1.79771011668e+477121 (an integer of 477122 digits)'
     """
+    with working():
+        return _count_text(n, None)
+
+
+def count_texts(ns: Iterable[Any]) -> list[str]:
+    """:func:`count_text` of each count, in one pass: one precision switch for all, and the
+    leading digits of equal long counts decided once (the same text, by the same rule).
+
+    >>> count_texts([7, 10**50 - 1, 10**50 - 1])[1:] == [count_text(10**50 - 1)] * 2
+    True
+    """
+    memo: dict[tuple[int, int], str] = {}
+    short = int(3.32 * TEXT_DIGITS)
+    with working():
+        # short ints (most rows' values) skip the call: this loop runs once per table row
+        return [str(n) if type(n) is int and n.bit_length() <= short else _count_text(n, memo)
+                for n in ns]
+
+
+with working():
+    _LN10 = arb(10).log()
+    _INV_LN10 = 1 / _LN10
+    _LOG10_2 = arb(2).log() * _INV_LN10
+_UNIT = arb("0.5", "0.5")  # [0, 1]: what the dropped low bits add to the top bits
+_HALF = arb("0.5")
+
+
+def _count_text(n: Any, memo: dict | None) -> str:
+    """count_text inside :func:`working`; ``memo`` keeps texts keyed by the bits that decide them."""
     if isinstance(n, BigCount):
         exact = str(n)
         if len(exact) <= TEXT_DIGITS:
             return exact
-        with working():
-            lg = to_arb(n).log() / arb(10).log()
-        return _leading_text(lg, None)
+        return _leading_text(to_arb(n).log() * _INV_LN10, None)[0]
     n = int(n)
     if n.bit_length() <= 3.32 * TEXT_DIGITS:
         return str(n)
     sign = "-" if n < 0 else ""
     n = abs(n)
-    shift = max(0, n.bit_length() - 192)  # the top 192 bits decide 12 digits by far
-    with working():
-        # n / 2^shift lies in [n >> shift, (n >> shift) + 1]
-        top = arb(n >> shift) + arb("0.5", "0.5") if shift else arb(n)
-        lg = (top.log() + shift * arb(2).log()) / arb(10).log()
-    return sign + _leading_text(lg, n)
+    bits = n.bit_length()
+    shift = max(0, bits - 192)  # the top 192 bits decide 12 digits by far
+    top = n >> shift
+    # the ball below is a function of (bits, top) alone, so a text it decided is the text
+    # of every count with the same key
+    key = (bits, top)
+    if memo is not None and key in memo:
+        return sign + memo[key]
+    # n / 2^shift lies in [top, top + 1]
+    lg = ((arb(top) + _UNIT).log() * _INV_LN10 + shift * _LOG10_2 if shift
+          else arb(n).log() * _INV_LN10)
+    text, decided = _leading_text(lg, n)
+    if memo is not None and decided:
+        memo[key] = text
+    return sign + text
 
 
-def _leading_text(lg: arb, exact: int | None) -> str:
-    """'d.ddddddddddde+E (an integer of D digits)' from a ball around log10 of a count.
+def _leading_text(lg: arb, exact: int | None) -> tuple[str, bool]:
+    """('d.ddddddddddde+E (an integer of D digits)', decided by the ball) from a ball around
+    log10 of a count (call inside :func:`working`).
 
     ``exact`` is the count itself when known: used when the ball cannot decide the
     digit count or the rounding of the 12th digit.
     """
     q = None
-    with working():
-        e = lg.floor().unique_fmpz()
-        if e is not None:
-            q = (arb(10) ** (lg - int(e) + 11) + arb("0.5")).floor().unique_fmpz()
-    if e is None or q is None:
+    e = lg.floor().unique_fmpz()
+    if e is not None:  # 10^(frac + 11) = exp((lg - e + 11) ln 10): the 12 digits before rounding
+        q = (((lg - int(e) + 11) * _LN10).exp() + _HALF).floor().unique_fmpz()
+    decided = e is not None and q is not None
+    if not decided:
         if exact is None:  # no exact form at hand: the length range, which the ball decides
             lo, hi = (int(b.floor().unique_fmpz()) for b in (lg.lower(), lg.upper()))
-            return f"an integer of {lo + 1} to {hi + 1} digits (exact form in --json)"
+            return f"an integer of {lo + 1} to {hi + 1} digits (exact form in --json)", False
         t = int_text(exact)
         e, q = len(t) - 1, (int(t[:13]) + 5) // 10  # round half up at the 12th digit
     e, q = int(e), int(q)
@@ -363,7 +466,7 @@ def _leading_text(lg: arb, exact: int | None) -> str:
     if q >= 10**12:  # 9.99...95 rounds up to 10.0...: the exponent moves, the length does not
         q, e = q // 10, e + 1
     t = str(q)
-    return f"{t[0]}.{t[1:]}e+{e} (an integer of {digits} digits)"
+    return f"{t[0]}.{t[1:]}e+{e} (an integer of {digits} digits)", decided
 
 
 def value_text(v: Any) -> str:
@@ -399,4 +502,5 @@ def _eigenvalues(n) -> str:
 _text_int = count_text
 _text_value = value_text
 
-__all__ = ["Answer", "RawNumber", "count_text", "dump_json", "json_count", "json_value", "value_text"]
+__all__ = ["Answer", "DigitText", "RawNumber", "count_text", "count_texts", "dump_json", "json_count",
+           "json_counts", "json_value", "value_text"]

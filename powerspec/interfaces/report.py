@@ -99,8 +99,7 @@ def _contains_zero(v: Any) -> bool:
     return v.contains(0) if isinstance(v, (arb, acb)) else True
 
 
-def _zero_line(ans: Answer) -> str | None:
-    pairs = ans.listed_atoms()
+def _zero_line(ans: Answer, pairs: list) -> str | None:
     for v, m in pairs:
         if _is_exact_zero(v):
             return (f"  {'zero':<11} eigenvalue 0 is exact: nullity {count_text(m)}, share "
@@ -140,7 +139,7 @@ def atom_lines(ans: Answer, head: int | None = None, full: bool = False) -> list
     pairs = ans.listed_atoms()
     n = len(pairs)
     lines = [_atoms_line(ans, n)]
-    zero = _zero_line(ans)
+    zero = _zero_line(ans, pairs)
     if zero:
         lines.append(zero)
     gap, left = None, 0
@@ -236,11 +235,7 @@ def truncated_json(ans: Answer, head: int | None, law: dict | None = None) -> di
 
     A cut list says so: ``distinct`` gives the full number of distinct eigenvalues.
     """
-    out = ans.to_dict()
-    if head is not None and "atoms" in out and len(out["atoms"]) > head:
-        out["distinct"] = len(out["atoms"])
-        out["atoms"] = out["atoms"][:head]
-        out["radii"] = out["radii"][:head]
+    out = ans.to_dict(head)
     if law:
         out["law"] = dict(law)
     return out

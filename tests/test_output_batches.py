@@ -1,0 +1,100 @@
+"""Batch formatting of exact counts (text and JSON) against exact integer arithmetic.
+
+The batch paths (one precision switch per table, equal counts converted once) must give
+exactly the per-count texts, and both must agree with the decimal digits of the integer
+itself: the reference below rounds str(n) half up at the 12th digit (exact integers).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from powerspec.answers.answer import (
+    DigitText,
+    count_text,
+    count_texts,
+    dump_json,
+    json_count,
+    json_counts,
+)
+from powerspec.numbers.counts import BigCount
+from powerspec.queries import planner
+
+
+def _exact_text(n: int) -> str:
+    """Reference: 12 leading digits of |n| rounded half up, and the length, from str(n)."""
+    sys.set_int_max_str_digits(0)
+    sign, t = ("-", str(-n)) if n < 0 else ("", str(n))
+    if abs(n).bit_length() <= 132:  # the text rule: in full up to 132 bits (about 40 digits)
+        return sign + t
+    e, q = len(t) - 1, (int(t[:13]) + 5) // 10
+    digits = e + 1
+    if q >= 10**12:
+        q, e = q // 10, e + 1
+    s = str(q)
+    return f"{sign}{s[0]}.{s[1:]}e+{e} (an integer of {digits} digits)"
+
+
+def _hard_cases() -> list[int]:
+    """Counts next to the rounding and length boundaries, where a ball alone cannot decide."""
+    out = []
+    for e in (40, 41, 57, 300, 1000, 4500):
+        ten = 10**e
+        tie = 123456789012 * 10 ** (e - 11) + 5 * 10 ** (e - 12)  # 13th digit 5, then zeros
+        nines = 10 ** (e + 1) - 1                                 # 99...9: rounds up, same length
+        out += [ten - 1, ten, ten + 1, tie - 1, tie, tie + 1, nines, -tie]
+    return out
+
+
+def test_batch_equals_single_and_exact_digits_on_boundaries():
+    ns = _hard_cases()
+    got = count_texts(ns)
+    assert got == [count_text(n) for n in ns]
+    assert got == [_exact_text(n) for n in ns]        # source: exact integers (str)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.integers(min_value=130, max_value=40000), st.integers(min_value=0), st.data())
+def test_counts_sharing_top_bits(bits, low, data):
+    # two counts with the same length and top 192 bits share one memo entry; each text must
+    # still be its own exact rounding (source: exact integers)
+    top = data.draw(st.integers(min_value=2**191, max_value=2**192 - 1)) if bits > 192 else None
+    if top is None:
+        n = data.draw(st.integers(min_value=2 ** (bits - 1), max_value=2**bits - 1))
+        ns = [n, n]
+    else:
+        s = bits - 192
+        ns = [(top << s) + (low % (1 << s)), (top << s) + ((low * 7 + 3) % (1 << s))]
+    assert count_texts(ns) == [_exact_text(n) for n in ns]
+
+
+def test_factored_counts_in_batches():
+    big = BigCount.power(3, 10**6) - BigCount.power(2, 10**6)
+    assert count_texts([big, 5, big]) == [count_text(big), "5", count_text(big)]
+
+
+def test_hypercube_rows_text_and_json_read_back():
+    # source: the k-cube's spectrum is k - 2j with multiplicity C(k, j) (textbook)
+    k = 14000                                        # C(14000, 7000) has 4213 digits > 4000
+    ans = planner.spectrum(f"cart(K(2)^{k})")
+    mults = [int(m) for m in ans.atoms.mult.tolist()]
+    assert mults == [math.comb(k, j) for j in range(k + 1)]
+    data = json.loads(ans.to_json())
+    sys.set_int_max_str_digits(0)
+    back = [int(m) for _, m in data["atoms"]]
+    assert back == mults
+    strings = [m for _, m in data["atoms"] if isinstance(m, str)]
+    assert strings and all(len(m) > 4000 for m in strings)   # DESIGN: > 4000 digits as strings
+    assert json_counts(mults) == [json_count(m) for m in mults]
+    head = json.loads(dump_json(ans.to_dict(head=3)))
+    assert head["distinct"] == k + 1 and [m for _, m in head["atoms"]] == mults[:3]
+
+
+def test_digit_text_is_written_without_escaping():
+    assert dump_json([DigitText("0123"), "a\"b"], end="\n") == '["0123", "a\\"b"]\n'
+    assert json.loads(dump_json({"x": DigitText("9" * 5000)}))["x"] == "9" * 5000
