@@ -98,3 +98,26 @@ def test_hypercube_rows_text_and_json_read_back():
 def test_digit_text_is_written_without_escaping():
     assert dump_json([DigitText("0123"), "a\"b"], end="\n") == '["0123", "a\\"b"]\n'
     assert json.loads(dump_json({"x": DigitText("9" * 5000)}))["x"] == "9" * 5000
+
+
+def test_values_next_to_an_integer_print_their_offset(capsys):
+    import mpmath
+
+    from powerspec.interfaces.cli import main
+
+    # source: P3 has eigenvalues -sqrt 2, 0, sqrt 2 (textbook); with loops 1/2 the strong
+    # power's eigenvalues are prod(3/2 + mu_i) - 1, so the smallest are -1 + d with
+    # d = (3/2 - sqrt 2)^30, (3/2 - sqrt 2)^29 * 3/2, (3/2 - sqrt 2)^29 (3/2 + sqrt 2); checked
+    # with mpmath at 60 digits
+    assert main(["top", "strong(loops(1/2, P(3))^30)", "--bottom", "-m", "3"]) == 0
+    rows = [ln.split() for ln in capsys.readouterr().out.splitlines()[-3:]]
+    with mpmath.workdps(60):
+        lo, mid, hi = 1.5 - mpmath.sqrt(2), mpmath.mpf(1.5), 1.5 + mpmath.sqrt(2)
+        truth = [lo**30, lo**29 * mid, lo**29 * hi]
+    texts = []
+    for row, d, mult in zip(rows, truth, (1, 30, 30), strict=True):
+        n, sign, dtext, radius, m = row
+        assert n == "-1" and sign == "+" and int(m) == mult
+        assert abs(mpmath.mpf(dtext) - d) <= mpmath.mpf(radius)   # every printed digit covered
+        texts.append(dtext)
+    assert len(set(texts)) == 3                                     # distinct atoms, distinct text

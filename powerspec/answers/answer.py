@@ -215,10 +215,36 @@ def atom_rows(pairs) -> tuple[list[tuple[str, str, str]], bool]:
     ints = iter(count_texts(int(v.p) for (v, _), w in zip(pairs, whole, strict=True) if w))
     mults = count_texts(m for _, m in pairs)
     for (v, _), w, mt in zip(pairs, whole, mults, strict=True):
-        t, r = (next(ints), 0) if w else ball_text(v)
+        t, r = (next(ints), 0) if w else offset_text(v)
         inexact = inexact or r != 0
         rows.append((t, radius_text(r) if r else "exact", mt))
     return rows, inexact
+
+
+def offset_text(v: Any) -> tuple[str, Any]:
+    """(text, radius) of a value: :func:`ball_text`, except that a ball that prints as an
+    integer n but provably is not n is written ``n + d`` / ``n - d`` with d's own certified
+    digits (values such as -1 + 10^-32, which the 20-digit cap would print as -1.000...).
+
+    >>> with working():
+    ...     x = arb(-1) + arb(10) ** -32 + arb(0, 1e-45)
+    >>> offset_text(x)[0], offset_text(arb(2.5))[0]
+    ('-1 + 1.000000000000e-32', '2.5')
+    """
+    t, r = ball_text(v)
+    if not r or not isinstance(v, arb):
+        return t, r
+    mant = t.partition("e")[0].lstrip("-")
+    if "e" in t or mant.rstrip("0").rstrip(".") != mant.partition(".")[0]:
+        return t, r                 # not printed as an integer: its digits already tell it apart
+    n = int(t.partition(".")[0])
+    with working():
+        d = v - n                   # exact shift: d's ball has v's radius
+    if d.contains(0):
+        return t, r                 # the ball holds n itself: nothing more to say
+    dt, dr = ball_text(d)
+    sign, body = ("- ", dt[1:]) if dt.startswith("-") else ("+ ", dt)
+    return f"{n} {sign}{body}", dr
 
 
 # ------------------------------------------------------------------ numbers
@@ -503,4 +529,4 @@ _text_int = count_text
 _text_value = value_text
 
 __all__ = ["Answer", "DigitText", "RawNumber", "count_text", "count_texts", "dump_json", "json_count",
-           "json_counts", "json_value", "value_text"]
+           "json_counts", "json_value", "offset_text", "value_text"]
