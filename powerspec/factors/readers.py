@@ -26,7 +26,6 @@ import stat
 from typing import Any
 
 import numpy as np
-import scipy.io
 import scipy.sparse as sp
 
 from powerspec.errors import FactorFileError, InputError
@@ -172,6 +171,8 @@ def _mm_header(raw: bytes, shown: str) -> tuple[str, int, int, int]:
 def _load_mtx(raw: bytes, path_str: str, name: str) -> Factor:
     shown = _shown(path_str)
     _mm_header(raw, shown)
+    import scipy.io  # imported on first use: about 40 ms that other commands do not need
+
     try:
         mat = scipy.io.mmread(io.BytesIO(raw))
     except Exception as exc:  # scipy raises ValueError, OverflowError and others

@@ -116,6 +116,41 @@ def _widen(v, direction: int):
     return v + direction * abs(v) * mpmath.mpf(1e-12)
 
 
+MULTISECT_POINTS = 256
+"""Trial points per bracket and round when narrowing a step-function curve (bracket tiers)."""
+
+MULTISECT_ROUNDS = 8
+"""Most multisection rounds (each shrinks a bracket 257-fold); the secant search finishes."""
+
+
+def _multisect(f, tgt, a, b, fa, fb, xtol):
+    """Narrow brackets [a, b] with f(a) < tgt <= f(b) by evaluating many interior points at once.
+
+    The bracket tiers' curves are step functions of the grid, on which a secant step
+    degenerates into bisection (one tier evaluation per halving).  One vectorised
+    evaluation of MULTISECT_POINTS equally spaced points per bracket shrinks it 257-fold
+    instead.  The new ends are again evaluated points with f(a) < tgt <= f(b) (the first
+    trial point reaching tgt and the one before it), so the rigour is that of the
+    evaluations, whatever the shape of f.  Arrays are updated in place.
+    """
+    frac = np.arange(1, MULTISECT_POINTS + 1) / (MULTISECT_POINTS + 1)
+    for _ in range(MULTISECT_ROUNDS):
+        act = np.flatnonzero(b - a > xtol)
+        if act.size == 0:
+            return
+        pts = a[act, None] + (b[act] - a[act])[:, None] * frac
+        vals = np.asarray(f(pts.ravel(), np.repeat(act, MULTISECT_POINTS)),
+                          dtype=float).reshape(pts.shape)
+        reach = vals >= tgt[act, None]
+        k = np.where(reach.any(axis=1), np.argmax(reach, axis=1), MULTISECT_POINTS)
+        rows = np.arange(act.size)
+        has_b = k < MULTISECT_POINTS
+        has_a = k > 0
+        kb, ka = np.minimum(k, MULTISECT_POINTS - 1), np.maximum(k - 1, 0)
+        b[act[has_b]], fb[act[has_b]] = pts[rows, kb][has_b], vals[rows, kb][has_b]
+        a[act[has_a]], fa[act[has_a]] = pts[rows, ka][has_a], vals[rows, ka][has_a]
+
+
 NEAR_ALPHA = 1e-13
 """Multiplicative rules: |s| below this share of |alpha / beta| leaves x = alpha + beta s at alpha."""
 
@@ -210,8 +245,10 @@ def quantiles(query, tier, levels: list[Fraction]):
             return np.choose(comp[idx[sub]], v)
 
         xtol = curve.xtol_abs + 4 * EPS * np.maximum(np.abs(a[idx]), np.abs(b[idx]))
-        ra, rb, _ = step_bracket(f, tgt[idx], a[idx], b[idx], xtol=xtol, flo=fa[idx], fhi=fb[idx],
-                                 indexed=True)
+        sa, sb, sfa, sfb, st = a[idx], b[idx], fa[idx], fb[idx], tgt[idx]
+        if getattr(tier, "name", None) == "bracket":
+            _multisect(f, st, sa, sb, sfa, sfb, xtol)
+        ra, rb, _ = step_bracket(f, st, sa, sb, xtol=xtol, flo=sfa, fhi=sfb, indexed=True)
         a[idx], b[idx] = ra, rb
     out = ([], [], [])
     for i in range(m):

@@ -101,9 +101,12 @@ class ExactTier:
         self._views = []
         for key in (v, v + r, v - r):
             o = np.argsort(key, kind="stable")
-            cum = [0]
-            for m in mult[o].tolist():
-                cum.append(cum[-1] + m)
+            same = next((view for view in self._views if np.array_equal(view[2], o)), None)
+            if same is not None:
+                cum = same[1]  # the same order gives the same exact cumulative counts
+            else:
+                cum = [0]
+                cum.extend(np.cumsum(mult[o]).tolist() if o.size else [])
             self._views.append((key[o], cum, o))
 
     def counts(self, x: float, strict: bool):

@@ -225,8 +225,13 @@ def _forward(a: np.ndarray, n: int):
         w = np.arange(n // 2 + 1, dtype=np.int64)
         x = np.zeros(n // 2 + 1, dtype=complex)
         term = np.empty(n // 2 + 1, dtype=complex)
+        pow2 = n & (n - 1) == 0  # the grids are powers of two: w g mod n is a mask
         for g in nzi.tolist():
-            ang = (2 * np.pi / n) * ((w * g) % n)
+            if g == 0:
+                # exp(0) = 1 exactly: the same sum as the general branch, without cos and sin
+                x.real += a[0]
+                continue
+            ang = (2 * np.pi / n) * (((w * g) & (n - 1)) if pow2 else ((w * g) % n))
             # cos and sin written in place (the same roundings as cos(ang) - i sin(ang))
             np.cos(ang, out=term.real)
             np.sin(ang, out=term.imag)
@@ -264,7 +269,15 @@ def _power_spectrum(blocks: list[_Block], n: int, signs=None):
         with np.errstate(divide="ignore", under="ignore", over="ignore", invalid="ignore"):
             mod = np.abs(x)
             lmod = np.log(mod)
-            y = np.exp(b.k * lmod) * np.exp(1j * np.remainder(b.k * np.angle(x), 2 * np.pi))
+            phase = np.remainder(b.k * np.angle(x), 2 * np.pi)
+            mag = np.exp(b.k * lmod)
+            # mag * exp(i phase) with cos and sin written in place: the same roundings as the
+            # complex exponential and product, without their complex temporaries
+            y = np.empty(x.shape, dtype=complex)
+            np.cos(phase, out=y.real)
+            np.sin(phase, out=y.imag)
+            y.real *= mag
+            y.imag *= mag
         y = np.where(mod > 0, y, 0.0)
         lm = np.where(mod > 0, lmod, 0.0)
         # the power's own rounding, per frequency, then the forward error amplified by k
