@@ -351,7 +351,7 @@ class Engine:
     def bound(self, node: Node, kind: str = "adjacency") -> int:
         """Cheap upper bound on the number of distinct eigenvalues (no merging assumed)."""
         _check_kind(kind)
-        return self._bound(node, kind)
+        return self._cached(node, "#bound " + kind, lambda: self._bound(node, kind))
 
     def _bound(self, node: Node, kind: str) -> int:
         if self._via_transition(node, kind):

@@ -211,39 +211,46 @@ def _compositions(s: Spectrum, k: int, comb: Combination) -> Spectrum:
     if s.hp is not None and r * (k + 1) <= HP_POWERS:
         powers = to_balls([hp_self_power(comb, x, c) for x in s.hp for c in range(k + 1)])
     else:
-        counts = np.tile(np.arange(k + 1, dtype=np.int64), r)
+        counts = np.arange(r * (k + 1), dtype=np.int64) % (k + 1)  # 0..k for each atom
         powers = self_power(comb, vec.take(np.repeat(np.arange(r), k + 1)), counts)
     rem = np.array([k], dtype=np.int64)
-    w = mult_array([1], order)
+    w = None  # the multiplicities: the first part sets them (r >= 2, see power())
     acc = None
     for i in range(r):
         if i == r - 1:
+            # the last part takes what remains: one term per partial composition, in place
             c = rem.copy()
-            src = np.arange(rem.size)
+            n_before = rem
         else:
+            # partial composition j (rem_j copies left) branches into c = 0..rem_j
             cnt = rem + 1
             src = np.repeat(np.arange(rem.size), cnt)
             offsets = np.cumsum(cnt) - cnt
             c = np.arange(src.size, dtype=np.int64) - np.repeat(offsets, cnt)
-        n_before = rem[src]
-        w = w[src]
-        if i < r - 1:
-            binom = np.empty(src.size, dtype=object if big else np.int64)
-            for n in np.unique(n_before):
-                sel = n_before == n
-                binom[sel] = pascal.row(int(n))[c[sel]]
-            # the first factor multiplies a vector of ones: take the binomials as they are
-            # (big-int products by 1 still copy every digit, k + 1 times)
-            w = binom if i == 0 else w * binom
+            n_before = rem[src]
+            # the binomials C(rem_j, c) of branch j are the whole Pascal row rem_j, in order
+            if i == 0:
+                # the first factor multiplies a vector of ones: take the binomials as they are
+                # (big-int products by 1 still copy every digit, k + 1 times)
+                w = pascal.row(k)
+            else:
+                binom = np.concatenate([pascal.row(n) for n in rem.tolist()])
+                w = w[src] * binom
         m_i = int(s.mult[i])
-        if m_i != 1:
+        if m_i != 1 and w.dtype == object and m_i & (m_i - 1) == 0:
+            # m_i = 2^e: a shift by e c bits (the same integers, several times faster)
+            w = np.left_shift(w, c * (m_i.bit_length() - 1))
+        elif m_i != 1:
             cmax = int(c.max()) if c.size else 0
             pw = mult_array([m_i**j for j in range(cmax + 1)], order)
             w = w * pw[c]
         rem = n_before - c
         term = powers.take(i * (k + 1) + c)
-        acc = term if acc is None else apply(comb, acc.take(src), term)
-    if isinstance(acc, Rationals) and acc.bits() > 4096:
+        if acc is not None:
+            acc = apply(comb, acc if i == r - 1 else acc.take(src), term)
+        else:
+            acc = term
+    if isinstance(acc, Rationals) and acc.wider_than(4096):
         acc = rationals_to_balls(acc)
     return Spectrum(acc, w, order=order)
 

@@ -45,7 +45,7 @@ def const(like: Vec, q: Fraction) -> Vec:
 
 def settle(x: Vec) -> Vec:
     """Move an exact vector whose numbers grew too large to certified balls."""
-    if isinstance(x, Rationals) and x.bits() > MAX_BITS:
+    if isinstance(x, Rationals) and x.wider_than(MAX_BITS):
         return rationals_to_balls(x)
     return x
 

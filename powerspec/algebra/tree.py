@@ -14,6 +14,7 @@ number domain reads the same nodes.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 
 from powerspec.algebra.kinds import Combination
 from powerspec.errors import InputError
@@ -63,9 +64,12 @@ class Product:
             if not isinstance(k, int) or isinstance(k, bool) or k < 1:
                 raise InputError(f"copies must be an integer >= 1, got {k!r}")
 
-    @property
+    @cached_property
     def order(self) -> int | BigCount:
-        """Number of vertices, prod n_j^k_j: an exact int, or a BigCount when enormous."""
+        """Number of vertices, prod n_j^k_j: an exact int, or a BigCount when enormous.
+
+        Computed once per node (a node and its operands never change).
+        """
         return power_product((node.order, k) for node, k in self.operands)
 
     @property

@@ -140,6 +140,16 @@ class Factor:
         return int(self._adj.shape[0])
 
     @property
+    def nnz(self) -> int:
+        """Number of stored (non-zero) adjacency entries, exact.
+
+        >>> from powerspec.factors.families import C
+        >>> C(5).nnz
+        10
+        """
+        return int(self._adj.nnz)
+
+    @property
     def directed(self) -> bool:
         """True when the adjacency matrix is not exactly symmetric."""
         if "directed" not in self._cache:
@@ -337,6 +347,8 @@ class Factor:
         >>> C(4).spectrum("laplacian").atoms()
         [(0.0, 1), (2.0, 2), (4.0, 1)]
         """
+        kind = _check_kind(kind)
+        direction = _check_direction(direction)  # checked before the memo, as on the first call
         key = ("spectrum", kind, self._effective_direction(kind, direction))
         if key not in self._cache:
             vals = self.certified(kind, direction)

@@ -28,6 +28,7 @@ of Graphs*, 2012, ch. 1 -- from memory; each is tested against numpy):
 
 from __future__ import annotations
 
+import functools
 import io
 from collections.abc import Callable
 from fractions import Fraction
@@ -35,7 +36,6 @@ from functools import cache
 from importlib import resources
 
 import numpy as np
-import scipy.io
 import scipy.sparse as sp
 from flint import fmpq
 
@@ -52,7 +52,43 @@ MAX_FAMILY_ORDER = 1_000_000
 MAX_FAMILY_NNZ = 4_000_000
 """Largest number of stored adjacency entries of a family factor (memory)."""
 
+REUSE_NNZ = 4096
+"""Family members with at most this many stored entries are built once per process and reused."""
+
+REUSE_MAX = 512
+"""Most family members kept for reuse (the oldest is dropped first)."""
+
 Form = Callable[[str, sp.csr_array], list | None]
+
+_BUILT: dict[tuple, Factor] = {}
+
+
+def _reused(build: Callable[..., Factor]) -> Callable[..., Factor]:
+    """Build a small family member once and hand out the same immutable Factor afterwards.
+
+    A :class:`Factor` is an immutable value (its certified spectra are memoised inside it),
+    so ``K(2)`` built twice is the same factor twice.  The key is the family and its exact
+    positional integer arguments; calls with anything else (keywords, weights, non-int
+    numbers) build afresh and so keep their own validation.  Only members with at most
+    :data:`REUSE_NNZ` stored entries are kept, at most :data:`REUSE_MAX` of them.
+    """
+
+    @functools.wraps(build)
+    def family(*args, **kwargs) -> Factor:
+        if kwargs or not all(type(a) is int for a in args):
+            return build(*args, **kwargs)
+        key = (build.__name__, *args)
+        f = _BUILT.get(key)
+        if f is None:
+            f = build(*args)
+            if f.nnz <= REUSE_NNZ:
+                if len(_BUILT) >= REUSE_MAX:
+                    for oldest in list(_BUILT)[:1]:  # list(): a snapshot, safe under threads
+                        _BUILT.pop(oldest, None)
+                _BUILT[key] = f
+        return f
+
+    return family
 
 
 def _uniform(adj: sp.csr_array) -> tuple[fmpq, fmpq] | None:
@@ -166,6 +202,7 @@ def _order(n: int, what: str) -> None:
 
 
 # --------------------------------------------------------------------- families
+@_reused
 def P(n: int) -> Factor:
     """The path P_n on n >= 1 vertices (0 - 1 - ... - n-1).
 
@@ -182,6 +219,7 @@ def P(n: int) -> Factor:
                    _form(_unit("P", (n,)), kinds, lambda m: _ends_unit("P", n, m)))
 
 
+@_reused
 def C(n: int) -> Factor:
     """The cycle C_n on n >= 3 vertices.
 
@@ -201,6 +239,7 @@ def C(n: int) -> Factor:
 _ABSENT = object()
 
 
+@_reused
 def K(m: int, n: int = _ABSENT) -> Factor:
     """The complete graph K_m (one argument) or the complete bipartite graph K_{m,n} (two).
 
@@ -235,6 +274,7 @@ def K(m: int, n: int = _ABSENT) -> Factor:
     return _family(rows, cols, m + n, f"K({m}, {n})", _form(_unit("K", (m, n)), kinds))
 
 
+@_reused
 def J(n: int) -> Factor:
     """The all-ones matrix J_n, n >= 1 (K_n with a loop of weight 1 at every vertex).
 
@@ -269,6 +309,7 @@ def _dicycle_form(n: int) -> Form:
     return form
 
 
+@_reused
 def dicycle(n: int, w=None) -> Factor:
     """The directed cycle i -> i+1 (mod n), n >= 2, with optional arc weights w[i] on i -> i+1.
 
@@ -344,6 +385,8 @@ def motif() -> Factor:
     >>> g.n, g.directed, g.is_regular()
     (9, False, False)
     """
+    import scipy.io  # only here and in load(): a heavy import the other families do not need
+
     ref = resources.files("powerspec").joinpath("data").joinpath("motif.mtx")
     mat = scipy.io.mmread(io.BytesIO(ref.read_bytes()))
     return Factor(mat, "motif")

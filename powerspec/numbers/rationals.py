@@ -41,7 +41,7 @@ def _maxabs(a: np.ndarray) -> int:
         return 0
     if a.dtype == object:
         return max(abs(int(v)) for v in a.tolist())
-    return int(np.max(np.abs(a)))
+    return int(np.abs(a).max())
 
 
 def _fit(a: np.ndarray) -> np.ndarray:
@@ -84,6 +84,17 @@ class Rationals:
     def bits(self) -> int:
         """Size of the largest numerator or the denominator, in bits."""
         return max(_maxabs(self.num).bit_length(), self.den.bit_length())
+
+    def wider_than(self, bits: int) -> bool:
+        """True when :meth:`bits` exceeds ``bits``, exactly (int64 numerators are not scanned
+        when ``bits`` >= 64: they have fewer bits).
+
+        >>> Rationals.from_ints([5, -2**70]).wider_than(64), Rationals.from_ints([5]).wider_than(64)
+        (True, False)
+        """
+        if self.num.dtype != object and bits >= 64:
+            return self.den.bit_length() > bits
+        return self.bits() > bits
 
     def take(self, idx) -> Rationals:
         """The entries at the given indices (or mask)."""

@@ -49,8 +49,15 @@ def merge_rationals(vals: Rationals, mult: np.ndarray) -> tuple[Rationals, np.nd
     """Exact values: sort ascending, equal values merged with summed multiplicities."""
     if len(vals) == 0:
         return vals, mult
+    num = vals.num
+    if num.size > 1 and bool((num[1:] > num[:-1]).all()):
+        # already strictly ascending (distinct): nothing to sort or merge
+        return Rationals(num.copy(), vals.den).reduced(), mult.copy()
+    if num.size > 1 and bool((num[1:] < num[:-1]).all()):
+        # strictly descending (e.g. a Cartesian power by compositions): reversed, nothing to merge
+        return Rationals(num[::-1].copy(), vals.den).reduced(), mult[::-1].copy()
     o = vals.sort_order()
-    num = vals.num[o]
+    num = num[o]
     m = mult[o]
     if num.dtype == object:
         brk = np.array([num[i] != num[i - 1] for i in range(1, num.size)], dtype=bool)

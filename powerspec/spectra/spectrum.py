@@ -212,9 +212,15 @@ class Spectrum:
     # -------------------------------------------------------------- merging
     def _merge(self) -> None:
         v, m = self.values, self.mult
-        keep = np.array([not (isinstance(x, int) and x == 0) for x in m.tolist()], dtype=bool) \
-            if m.dtype == object else m != 0
-        if not np.all(keep):
+        if m.dtype != object:
+            keep = m != 0
+        else:
+            seq = m.tolist()
+            # ``0 in seq`` is False when no entry equals 0 (ints compare exactly; a BigCount
+            # never equals 0), and then every atom is kept: the scan below only runs otherwise
+            keep = None if 0 not in seq else np.array(
+                [not (isinstance(x, int) and x == 0) for x in seq], dtype=bool)
+        if keep is not None and not np.all(keep):
             v, m = _take(v, keep), m[keep]
         if isinstance(v, Rationals):
             v, m = merge_rationals(v, m)
