@@ -10,6 +10,8 @@ failure turned into ``None`` plus a recorded reason (never an exception):
 * ``moments(kind)`` -- the normalised moments tau_1..tau_4 as certified
   balls (the moment engine's ball domain: exact factor traces, any k);
 * ``blocks()`` -- the Laplacian from the symmetry tier (plan checked first);
+* ``block_ends(top, bottom)`` -- only the ends of the Laplacian (lambda_max and the second
+  smallest eigenvalue) from the symmetry tier, with its larger ends-only budget;
 * ``shape`` / ``degrees`` -- exact components and the degree range.
 
 Nothing here builds a list whose length grows with k: a left fold over more
@@ -41,7 +43,7 @@ from powerspec.queries.invariants_structure import (
     shape,
 )
 from powerspec.spectra.spectrum import HPValues, Spectrum, mult_array
-from powerspec.tiers.invariant_blocks import laplacian_blocks
+from powerspec.tiers.invariant_blocks import laplacian_blocks, laplacian_ends
 from powerspec.tiers.symmetry import SymmetryError
 
 FULL_BITS = 1 << 25
@@ -267,6 +269,11 @@ class Context:
     def blocks(self):
         """The Laplacian's certified block spectrum from the symmetry tier, or None."""
         return self._get(("blocks",), lambda: laplacian_blocks(self.node, self.direction))
+
+    def block_ends(self, top: bool, bottom: bool):
+        """The Laplacian's certified ends (:class:`~powerspec.tiers.invariant_blocks.LaplacianEnds`)."""
+        return self._get(("block_ends", top, bottom),
+                         lambda: laplacian_ends(self.node, self.direction, top=top, bottom=bottom))
 
     @property
     def shape(self):

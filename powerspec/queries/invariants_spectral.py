@@ -21,6 +21,7 @@ values of size k: the gap of ``cart(C(9)^(10^9))`` keeps its digits.
 
 from __future__ import annotations
 
+import math
 from itertools import combinations_with_replacement
 
 from flint import arb, fmpq
@@ -285,16 +286,29 @@ def algebraic_connectivity(cx: Context):
         with working():
             lo_b, hi_b = arb(max(lo, 0.0)), arb(hi)
         return bracket(lo_b, hi_b, "certified: 2nd smallest eigenvalue of the " + plan_text(bs)), lo_b
+    if cx.undirected and not cx.exact_kind("laplacian"):
+        ends = cx.block_ends(False, True)
+        if ends is not None and math.isfinite(ends.second[0]) and math.isfinite(ends.second[1]):
+            lo, hi = ends.second
+            with working():
+                lo_b = arb(max(lo, 0.0) if cx.nonneg else lo)  # L >= 0 for non-negative weights
+                return bracket(lo_b, arb(hi), "certified: 2nd smallest eigenvalue, " + ends.text()), \
+                    (lo_b if lo_b > 0 else None)
     return _weyl_connectivity(cx)
+
+
+def _declined(cx: Context, key) -> str:
+    """Why the symmetry tier gave neither the spectrum nor the ends (its last reason)."""
+    return cx.why(key) or cx.why(("blocks",)) or "not applicable"
 
 
 def _weyl_connectivity(cx: Context):
     rng = cx.degrees
     top = cx.ext("adjacency", 2, False)
+    why = _declined(cx, ("block_ends", False, True))
     if rng is None or top is None or not cx.nonneg:
         return unavailable("not available: the Laplacian does not factor, the symmetry tier "
-                           f"declined ({cx.why(('blocks',)) or 'not applicable'}) and no Weyl bracket "
-                           "applies"), None
+                           f"declined ({why}) and no Weyl bracket applies"), None
     d_min, d_max = rng
     atoms = _atoms(top)
     lam2 = _ball(atoms[-1][0]) if (atoms[-1][1] != 1 or len(atoms) < 2) else _ball(atoms[-2][0])
@@ -303,8 +317,7 @@ def _weyl_connectivity(cx: Context):
         lower = lower if lower > 0 else arb(0)
         upper = d_max - lam2
         how = ("bracket (Weyl): lambda_2(D - A) in [d_min - lambda_2(A), d_max - lambda_2(A)], exact "
-               "degree range and certified adjacency extremes; the symmetry tier declined: "
-               + (cx.why(("blocks",)) or "not applicable"))
+               "degree range and certified adjacency extremes; the symmetry tier declined: " + why)
         if not cx.loops and cx.n_arb > 1:
             fiedler = cx.n_arb / (cx.n_arb - 1) * d_min  # Fiedler 1973: alpha_2 <= N/(N-1) d_min
             if fiedler < upper:
@@ -335,6 +348,13 @@ def laplacian_radius(cx: Context):
         with working():
             return bracket(arb(lo), arb(hi), "certified: largest eigenvalue of the " + plan_text(bs)), \
                 arb(hi)
+    if not cx.exact_kind("laplacian"):
+        ends = cx.block_ends(True, False)
+        if ends is not None and math.isfinite(ends.largest[0]) and math.isfinite(ends.largest[1]):
+            lo, hi = ends.largest
+            with working():
+                return bracket(arb(lo), arb(hi), "certified: largest eigenvalue, " + ends.text()), \
+                    arb(hi)
     rng = cx.degrees
     top, bot = cx.ext("adjacency", 1, False), cx.ext("adjacency", 1, True)
     if rng is None or top is None or bot is None:
@@ -347,7 +367,8 @@ def laplacian_radius(cx: Context):
         lower = alt if alt > lower else lower
         upper = d_max - lmin
     return bracket(lower, upper, "bracket (Weyl): [max(d_max - lambda_max(A), d_min - lambda_min(A)), "
-                                 "d_max - lambda_min(A)]"), upper
+                                 "d_max - lambda_min(A)]; the symmetry tier declined: "
+                                 + _declined(cx, ("block_ends", True, False))), upper
 
 
 # ------------------------------------------------------------------ nullity

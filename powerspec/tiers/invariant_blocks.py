@@ -23,8 +23,10 @@ diagonal (Weyl's theorem).
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from fractions import Fraction
+from itertools import product as cartesian
 
 import numpy as np
 from flint import arb
@@ -32,6 +34,9 @@ from flint import arb
 from powerspec.algebra.tree import Leaf, Node
 from powerspec.numbers.hp import working
 from powerspec.tiers.symmetry import PowerOperand, SymmetryError, blocks, plan
+from powerspec.tiers.symmetry.block import prepare
+from powerspec.tiers.symmetry.extremes import LARGE_FROM, WeylRanges, block_ends
+from powerspec.tiers.symmetry.patterns import U
 from powerspec.tiers.symmetry.reduction import find_involution
 
 MAX_WORK = 3 * 10**8
@@ -120,8 +125,12 @@ class BlockSpectrum:
         return out
 
 
-def operands(node: Node, direction: str = "out"):
-    """(PowerOperands, a, b, degree perturbation bound) for the symmetry tier, or a reason string."""
+def operands(node: Node, direction: str = "out", max_blocks: int = MAX_BLOCKS):
+    """(PowerOperands, a, b, degree perturbation bound) for the symmetry tier, or a reason string.
+
+    Refuses (with the reason) products that split into more than ``max_blocks`` blocks,
+    counted from the partitions before any plan.
+    """
     if isinstance(node, Leaf) or node.directed:
         return "the symmetry tier needs an undirected product"
     a, b = node.comb.a, node.comb.b
@@ -139,13 +148,13 @@ def operands(node: Node, direction: str = "out"):
             return f"{f.name} has {f.n} vertices; the symmetry tier takes factors up to {MAX_ORDER}"
         adj = f.adjacency.toarray()
         deg = f.degrees(direction)
-        count = block_count(adj, deg, k)
-        if count > MAX_BLOCKS:
-            return (f"{f.name}^{k} splits into more than {MAX_BLOCKS} blocks (counted from the "
+        count = block_count(adj, deg, k, max_blocks)
+        if count > max_blocks:
+            return (f"{f.name}^{k} splits into more than {max_blocks} blocks (counted from the "
                     "partitions before any work)")
         total_blocks = total_blocks * count
-        if total_blocks > MAX_BLOCKS:
-            return f"the product splits into more than {MAX_BLOCKS} blocks (counted before any work)"
+        if total_blocks > max_blocks:
+            return f"the product splits into more than {max_blocks} blocks (counted before any work)"
         exact = f.exact_degrees(direction)
         delta = max((abs(Fraction(float(x)) - e) for x, e in zip(deg.tolist(), exact, strict=True)),
                     default=Fraction(0))
@@ -209,4 +218,221 @@ def plan_text(bs: BlockSpectrum) -> str:
             f"{bs.largest}")
 
 
-__all__ = ["BlockSpectrum", "MAX_WORK", "block_count", "laplacian_blocks", "operands", "plan_text"]
+# ---------------------------------------------------------------------- the two ends only
+def diagonal_bounds(ops: list[PowerOperand], a: float, b: float, widen: float) -> tuple[float, float]:
+    """(floor, ceiling): λ_max(L) >= floor and λ_2(L) <= ceiling, from diagonal entries of L.
+
+    L_vv is taken at the vertices v = (j, ..., j) (each operand's copies all on one factor
+    vertex j; every combination when there are at most 4096, else each operand's vertex of
+    largest and of smallest degree), in ball arithmetic, with the degree perturbation bound.
+    The floor is max L_vv (the Rayleigh quotient of e_v).  The ceiling is N/(N-1) min L_vv
+    (Fiedler 1973): degrees are row sums, so L 1 = 0 and on span{1, e_v} the Rayleigh
+    quotient peaks at N/(N-1) L_vv (for L_vv >= 0; Courant--Fischer for λ_2).
+
+    >>> p3 = np.array([[0., 1, 0], [1, 0, 1], [0, 1, 0]])
+    >>> lo, hi = diagonal_bounds([PowerOperand(p3, p3.sum(axis=1), 3)], 0, 1, 0.0)
+    >>> 7.99 < lo <= 8.0, 1.0 <= hi < 1.04      # degrees 2^3 and 1; N/(N-1) = 27/26
+    (True, True)
+    """
+    choices = [list(range(op.adjacency.shape[0])) for op in ops]
+    if math.prod(len(c) for c in choices) > 4096:
+        choices = [sorted({int(np.argmax(op.degrees)), int(np.argmin(op.degrees))}) for op in ops]
+    best, least = -math.inf, math.inf
+    with working():
+        bb = arb(float(b))
+        total = sum(op.copies for op in ops)
+        for combo in cartesian(*choices):
+            dd, aa = (arb(0), arb(0)) if (a, b) == (1, 0) else (arb(1), arb(1))
+            for op, j in zip(ops, combo, strict=True):
+                d, loop, k = arb(float(op.degrees[j])), arb(float(op.adjacency[j, j])), op.copies
+                if (a, b) == (1, 0):
+                    dd, aa = dd + k * d, aa + k * loop
+                elif a == 1:
+                    dd, aa = dd * (1 + bb * d) ** k, aa * (1 + bb * loop) ** k
+                else:
+                    dd, aa = dd * d**k, aa * loop**k
+            val = dd - aa
+            if a == 1 and b != 0:
+                val = val / bb
+            elif a == 0:
+                val = val * bb ** (total - 1)
+            if val.is_finite():
+                best = max(best, float(val.lower()))
+                if val.lower() >= 0:
+                    least = min(least, float(val.upper()))
+        order = math.prod(op.adjacency.shape[0] ** op.copies for op in ops)
+        if math.isfinite(least) and order > 1:
+            fiedler = (arb(least) + widen) * arb(order) / (arb(order) - 1)
+            least = float(fiedler.upper())
+    floor = float(np.nextafter(best - widen, -math.inf)) if math.isfinite(best) else -math.inf
+    return floor, float(np.nextafter(least, math.inf)) if math.isfinite(least) else math.inf
+
+
+@dataclass
+class LaplacianEnds:
+    """Rigorous bounds on λ_max(L) and on the second smallest eigenvalue of L (with multiplicity).
+
+    ``largest`` and ``second`` are (lower, upper) pairs (None when not asked); the counts say
+    how the answer was obtained: blocks in the plan, blocks computed, of which by the
+    Cholesky route (``large``), and the largest block computed.
+    """
+
+    largest: tuple[float, float] | None
+    second: tuple[float, float] | None
+    blocks: int
+    computed: int
+    large: int
+    largest_dim: int
+    order: int
+
+    def text(self) -> str:
+        """The method text of an entry computed from these ends."""
+        how = (f"symmetry reduction (Schur-Weyl blocks): {self.blocks} blocks; ends of {self.computed} "
+               f"(largest {self.largest_dim})")
+        if self.large:
+            how += f", {self.large} of them by LAPACK candidates + Cholesky inertia certificates"
+        skipped = self.blocks - self.computed
+        if skipped:
+            how += f"; {skipped} blocks bounded by Weyl's inequalities from their diagonals"
+        return how
+
+
+EXTREMES_MAX_WORK = 3 * 10**10
+"""Largest plan work for the ends only: sum over the blocks that can hold an end of d^3
+(dense blocks at full weight, the Cholesky route's at :data:`LARGE_COST`) plus
+:data:`BLOCK_OVERHEAD` each; about 20 s of one core on the project machine."""
+
+BLOCK_OVERHEAD = 10**7
+"""Fixed cost of one block in units of d^3 (about 10 ms: its module, rotations and solve setup)."""
+
+EXTREMES_MAX_BLOCKS = 40_000
+"""Largest number of blocks an ends-only plan enumerates (a few seconds of planning)."""
+
+EXTREMES_MAX_BLOCK = 4_000
+"""Largest block built for the ends (about BYTES_PER_ENTRY d^2 = 1.8 GB at the cap)."""
+
+LARGE_COST = 0.5
+"""Cost of a block on the Cholesky route relative to the dense certified solve (measured)."""
+
+
+def _two_smallest(entries) -> float:
+    """The second smallest of (value, count) entries (counts capped at 2); +inf if fewer than 2."""
+    lo1 = lo2 = math.inf
+    for v, c in entries:
+        for _ in range(min(c, 2)):
+            if v < lo1:
+                lo1, lo2 = v, lo1
+            elif v < lo2:
+                lo2 = v
+    return lo2
+
+
+def laplacian_ends(node: Node, direction: str = "out", *, top: bool = True, bottom: bool = True,
+                   max_work: float = EXTREMES_MAX_WORK, large_from: int = LARGE_FROM) -> LaplacianEnds:
+    """Certified λ_max(L) and second smallest eigenvalue of L from the ends of the blocks.
+
+    Before any block is built: the plan, Weyl enclosures of every block from its diagonals
+    (:class:`~powerspec.tiers.symmetry.extremes.WeylRanges`), a lower bound of λ_max and
+    Fiedler's upper bound of the second smallest from the diagonal of L
+    (:func:`diagonal_bounds`).  Blocks that cannot hold an end are never built; the work of
+    the others is checked against ``max_work`` (SymmetryError otherwise).  Then blocks are
+    visited from the most promising on (largest upper end first for the top, smallest lower
+    end first for the bottom), each computed only while it can still change a bound; blocks
+    of size ``large_from`` and more take the Cholesky route of
+    :func:`~powerspec.tiers.symmetry.extremes.block_ends`.  A block never computed
+    contributes its Weyl enclosure, so both answers hold whatever is skipped.
+
+    >>> from powerspec.algebra.grammar import parse
+    >>> e = laplacian_ends(parse("strong(P(3)^3)"))
+    >>> [round(x, 9) for x in e.largest + e.second]   # numpy eigvalsh, 27-vertex build: 27, 5.121530264
+    [27.0, 27.0, 5.121530264, 5.121530264]
+    """
+    got = operands(node, direction, EXTREMES_MAX_BLOCKS)
+    if isinstance(got, str):
+        raise SymmetryError(got)
+    ops, a, b, widen = got
+    the_plan = plan(ops, a, b, "laplacian")
+    if the_plan.blocks > EXTREMES_MAX_BLOCKS:
+        raise SymmetryError(f"symmetry plan too large for the ends: {the_plan.blocks} blocks "
+                            f"(limit {EXTREMES_MAX_BLOCKS})")
+    prepared = prepare(list(the_plan.factors), a, b, "laplacian")
+    ranges = WeylRanges(prepared, a, b, widen)
+    specs = the_plan.specs
+    parts = [the_plan.terms[s.term].parts for s in specs]
+    enc = [ranges.block(list(p), s.shapes) for p, s in zip(parts, specs, strict=True)]
+    counts = [min(s.multiplicity * s.dim, 2) for s in specs]
+    floor, fiedler = diagonal_bounds(ops, a, b, widen)
+    floor = floor if top else math.inf
+    ceiling = min(fiedler, _two_smallest((hi, c) for (_, hi), c in zip(enc, counts, strict=True))) \
+        if bottom else -math.inf
+    need_top = [top and hi >= floor for _, hi in enc]
+    need_bot = [bottom and lo <= ceiling for lo, _ in enc]
+    needed = [i for i in range(len(specs)) if need_top[i] or need_bot[i]]
+    work = sum(specs[i].dim**3 * (LARGE_COST if specs[i].dim >= large_from else 1.0) + BLOCK_OVERHEAD
+               for i in needed)
+    big = max((specs[i].dim for i in needed), default=0)
+    if work > max_work or big > EXTREMES_MAX_BLOCK:
+        raise SymmetryError(f"symmetry plan too large for the ends: {len(needed)} of {the_plan.blocks} "
+                            f"blocks can hold an end, largest {big} (limit {EXTREMES_MAX_BLOCK}), work "
+                            f"{work:.3g} (limit {max_work:.3g}); decided before any block was built")
+    done: dict[int, object] = {}
+
+    def compute(i: int, want_top: bool, want_bot: bool):
+        s = specs[i]
+        jobs = [(prepared[fi], k) for fi, k in parts[i]]
+        done[i] = block_ends(jobs, s.shapes, a, b, top=want_top, bottom=want_bot,
+                             second=want_bot and s.multiplicity == 1 and s.dim > 1, widen=widen,
+                             large_from=large_from)
+        return done[i]
+
+    lb_top = floor
+    for i in sorted((i for i in needed if need_top[i]), key=lambda i: -enc[i][1]):
+        if enc[i][1] <= lb_top:
+            break
+        lb_top = max(lb_top, compute(i, True, need_bot[i]).high[0])
+    ub_bot = ceiling
+    seen: list[tuple[float, int]] = []
+    for i in sorted((i for i in needed if need_bot[i]), key=lambda i: enc[i][0]):
+        if enc[i][0] >= ub_bot:
+            break
+        if U * max(abs(enc[i][0]), abs(enc[i][1])) >= ub_bot:
+            continue  # any float solve of this block errs by more than the end it could bound
+        e = done.get(i)
+        if e is None or not math.isfinite(e.low[1]):
+            e = compute(i, False, True)
+        seen += _upper_entries(e, specs[i])
+        ub_bot = min(ub_bot, _two_smallest(seen))
+    largest = second = None
+    if top:
+        hi = max(min(enc[i][1], done[i].high[1]) if i in done and math.isfinite(done[i].high[0])
+                 else enc[i][1] for i in range(len(specs)))
+        largest = (lb_top, hi)
+    if bottom:
+        lows, ups = [], []
+        for i, s in enumerate(specs):
+            e = done.get(i)
+            if e is None or not math.isfinite(e.low[1]):
+                lows.append((enc[i][0], counts[i]))
+                ups.append((enc[i][1], counts[i]))
+                continue
+            l1 = max(enc[i][0], e.low[0])
+            l2 = max(l1, e.second[0]) if s.multiplicity == 1 else l1
+            lows += [(l1, 1), (l2, 1)] if s.multiplicity * s.dim >= 2 else [(l1, 1)]
+            ups += _upper_entries(e, s, enc[i][1])
+        second = (_two_smallest(lows), min(_two_smallest(ups), ub_bot))
+    large = sum(1 for e in done.values() if e.route == "cholesky")
+    return LaplacianEnds(largest, second, the_plan.blocks, len(done), large,
+                         max((specs[i].dim for i in done), default=0), the_plan.order)
+
+
+def _upper_entries(e, s, cap: float = math.inf) -> list[tuple[float, int]]:
+    """Upper bounds of a computed block's two smallest eigenvalues (counted with multiplicity)."""
+    u1 = min(cap, e.low[1])
+    if s.multiplicity * s.dim < 2:
+        return [(u1, 1)]
+    u2 = min(cap, e.second[1]) if s.multiplicity == 1 else u1
+    return [(u1, 1), (u2, 1)]
+
+
+__all__ = ["BlockSpectrum", "EXTREMES_MAX_WORK", "LaplacianEnds", "MAX_WORK", "block_count",
+           "diagonal_bounds", "laplacian_blocks", "laplacian_ends", "operands", "plan_text"]

@@ -200,15 +200,19 @@ def _product_perturbation(norms: list[float], perts: list[float]) -> float:
     return up(total * (1 + gamma(2 * len(norms) + 2)))
 
 
-def compute_block(parts: list[tuple[PreparedOperand, int]], shapes: tuple[Partition, ...], a: float,
-                  b: float, kind: str, multiplicity: int) -> Block:
-    """The certified eigenvalues of block ``shapes`` of the product of ``parts`` (operand, copies)."""
+def block_matrix(parts: list[tuple[PreparedOperand, int]], shapes: tuple[Partition, ...], a: float,
+                 b: float, kind: str) -> tuple[np.ndarray, float, float]:
+    """(B̃, err, scale): the float block, a rigorous ||B̃ - B||_2 <= err, and the eigenvalue scale.
+
+    The block's exact eigenvalues are ``scale`` times those of B (``scale`` = b^(K-1) for the
+    a = 0 rule and the laplacian, signless and adjacency kinds, else 1.0; see the module
+    docstring).  B̃ is exactly symmetric.
+    """
     rule = rule_name(a, b)
     norm_direct = rule == "multiplicative" and kind in ("normalized", "transition")
     need_deg = kind != "adjacency" and not norm_direct
     data = [_operand_data(op, k, lam, rule, b, need_deg)
             for (op, k), lam in zip(parts, shapes, strict=True)]
-    names = tuple(op.name for op, _ in parts)
     # the orthogonal frame: Kronecker product of the operands' images
     u = data[0][0]
     eps_u = data[0][1]
@@ -271,16 +275,34 @@ def compute_block(parts: list[tuple[PreparedOperand, int]], shapes: tuple[Partit
         err += U * float(np.max(np.abs(bt[diag])))
     if not np.all(np.isfinite(bt)):
         raise SymmetryError(OVERFLOW)
-    mu, r = certify_symmetric(bt)
-    radius = up(err + r)
+    scale = 1.0
     if rule == "multiplicative" and kind in ("laplacian", "signless", "adjacency"):
         total = sum(k for _, k in parts)
         scale = float(monomials(np.array([b]), np.array([[total - 1]]))[0])
-        if scale != 1.0:
-            mu_scaled = mu * scale
-            g = gamma(2 * total + 2)
-            rad = radius * abs(scale) * (1 + g) + g * np.abs(mu_scaled)
-            if scale < 0:  # keep the values ascending
-                mu_scaled, rad = mu_scaled[::-1].copy(), rad[::-1].copy()
-            return Block(mu_scaled, rad, multiplicity, tuple(shapes), names)
+    return bt, err, scale
+
+
+def scale_gamma(parts: list[tuple[PreparedOperand, int]]) -> float:
+    """Relative error bound of the computed ``scale`` of :func:`block_matrix` (binary powering).
+
+    >>> scale_gamma([]) > 0
+    True
+    """
+    return gamma(2 * sum(k for _, k in parts) + 2)
+
+
+def compute_block(parts: list[tuple[PreparedOperand, int]], shapes: tuple[Partition, ...], a: float,
+                  b: float, kind: str, multiplicity: int) -> Block:
+    """The certified eigenvalues of block ``shapes`` of the product of ``parts`` (operand, copies)."""
+    names = tuple(op.name for op, _ in parts)
+    bt, err, scale = block_matrix(parts, shapes, a, b, kind)
+    mu, r = certify_symmetric(bt)
+    radius = up(err + r)
+    if scale != 1.0:
+        mu_scaled = mu * scale
+        g = scale_gamma(parts)
+        rad = radius * abs(scale) * (1 + g) + g * np.abs(mu_scaled)
+        if scale < 0:  # keep the values ascending
+            mu_scaled, rad = mu_scaled[::-1].copy(), rad[::-1].copy()
+        return Block(mu_scaled, rad, multiplicity, tuple(shapes), names)
     return Block(mu, np.full(mu.shape, radius), multiplicity, tuple(shapes), names)
