@@ -19,8 +19,9 @@ Functions (DESIGN §4, the textbook notation):
 Numbers may be fractions (``1/50``, ``-3/4``).  Every number is read exactly
 (an ``int``, or a :class:`fractions.Fraction`), checked against the ranges of
 :mod:`~powerspec.algebra.limits` on its exact value, and handed to the factor
-layer as the nearest double (``float(Fraction)`` rounds correctly): 1/3 becomes
-0.333..., not a symbolic third.
+layer as the nearest double (``float(Fraction)`` rounds correctly): a weight 1/3 becomes
+0.333..., not a symbolic third.  The coefficients of ``mix(a, b, ...)`` act on eigenvalues,
+not on a matrix, and stay exact: ``mix(1, 1/3, G)`` combines by exactly a third.
 
 Work that grows with the written text is removed while building: equal
 operands (same text, blanks ignored) are merged into powers -- all of them in
@@ -37,6 +38,7 @@ error names the column; an unknown name gets the closest known one.
 from __future__ import annotations
 
 import difflib
+from fractions import Fraction
 from pathlib import Path
 
 from powerspec.algebra.engine import Leaf, Node, Product
@@ -220,8 +222,8 @@ class _Builder:
         if t.name == "mix":
             if len(args) < 3:
                 raise ExpressionError("mix(a, b, G, ...) needs two coefficients and a graph", t.col)
-            comb = Combination(_real(args[0], "mix() coefficient a"),
-                               _real(args[1], "mix() coefficient b"))
+            comb = Combination(_exact(args[0], "mix() coefficient a"),
+                               _exact(args[1], "mix() coefficient b"))
             args, label = args[2:], ""
         else:
             if not args:
@@ -383,6 +385,13 @@ def _integer(a, what: str) -> int:
     if abs(a.value) > 10**15:
         raise ExpressionLimitError(f"{what} = {echo(a.text)} is out of range", a.col)
     return a.value
+
+
+def _exact(a, what: str) -> Fraction:
+    """A mix coefficient exactly as written (1/3 stays a third: the rule's arithmetic is exact),
+    after the range check of the limits."""
+    _real(a, what)
+    return Fraction(a.value)
 
 
 def _real(a, what: str) -> float:

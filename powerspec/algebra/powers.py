@@ -28,7 +28,7 @@ import numpy as np
 from flint import fmpq
 
 from powerspec.algebra.kinds import Combination
-from powerspec.algebra.rules import apply, pairs, self_power, unify
+from powerspec.algebra.rules import apply, pairs, scale_shift, self_power, tighter, unify
 from powerspec.errors import SizeLimitError
 from powerspec.numbers.balls import Balls
 from powerspec.numbers.convert import rationals_to_balls, to_balls
@@ -40,6 +40,9 @@ from powerspec.spectra.spectrum import Spectrum, mult_array
 _INT64_SAFE = 2**62
 HP_POWERS = 200_000
 """Most atom powers computed at high precision in one composition enumeration."""
+
+HP_CANDIDATES = 20_000
+"""Most candidates of an a = 1 power (strong, mix(1, b)) combined wholly at high precision."""
 
 
 def composition_count(k: int, r: int) -> int:
@@ -200,6 +203,68 @@ class _Pascal:
         return r
 
 
+class _Linear:
+    """The linearised values s = 1 + b x of a = 1 rules, carried beside x through a composition.
+
+    x o y = ((1 + bx)(1 + by) - 1)/b: the product of the s-balls has a small *relative*
+    radius, while x + y + bxy, once a partial value has rounded to -1/b, multiplies that
+    absolute rounding by every later factor (strong powers of values below 1 + b x = 1
+    reached radii of 1e21 around -1 and merged thousands of distinct atoms).  After each
+    part both coordinates keep the tighter of their own ball and the one mapped from the
+    other (both rigorous).  With few candidates and the atoms known at 160 bits, the
+    products run at 160 bits instead (:meth:`hp_values`), where -1/b + 10^-40 is not -1/b.
+    Inactive for exact values and for rules other than a = 1.
+    """
+
+    def __init__(self, s: Spectrum, k: int, comb: Combination, powers):
+        self.on = comb.mode == "mul" and comb.a == 1 and isinstance(powers, Balls)
+        self.hp: list[list[HP]] | None = None
+        self.acc = None
+        if not self.on:
+            return
+        self.b, self.k = comb.b, k
+        r = len(s)
+        bq = fmpq(comb.b.numerator, comb.b.denominator)
+        if s.hp is not None and composition_count(k, r) <= HP_CANDIDATES:
+            with working():
+                self.hp = [[(1 + bq * x) ** c for c in range(k + 1)] for x in s.hp]
+            self.bq = bq
+        elif s.hp is not None and r * (k + 1) <= HP_POWERS:
+            with working():
+                self.powers = to_balls([(1 + bq * x) ** c for x in s.hp for c in range(k + 1)])
+        else:
+            base = scale_shift(unify(_vec(s), powers)[0], 1, comb.b)
+            counts = np.arange(r * (k + 1), dtype=np.int64) % (k + 1)
+            self.powers = base.take(np.repeat(np.arange(r), k + 1)).pow_int(counts)
+
+    def step(self, acc, i: int, c: np.ndarray, src: np.ndarray | None):
+        """The tighter x after part i (counts ``c``; ``src`` spreads the previous partial values)."""
+        if not self.on:
+            return acc
+        if self.hp is not None:
+            pw = self.hp[i]
+            with working():
+                if self.acc is None:
+                    self.acc = [pw[j] for j in c.tolist()]
+                else:
+                    prev = self.acc if src is None else [self.acc[j] for j in src.tolist()]
+                    self.acc = [p * pw[j] for p, j in zip(prev, c.tolist(), strict=True)]
+            return acc
+        term = self.powers.take(i * (self.k + 1) + c)
+        prev = self.acc if src is None or self.acc is None else self.acc.take(src)
+        lin = term if prev is None else prev.mul(term)
+        x = tighter(acc, scale_shift(lin, -1 / self.b, 1 / self.b))
+        self.acc = tighter(lin, scale_shift(x, 1, self.b))
+        return x
+
+    def hp_values(self) -> list[HP] | None:
+        """The candidates (s - 1)/b at 160 bits, when the chain ran there."""
+        if self.hp is None:
+            return None
+        with working():
+            return [(v - 1) / self.bq for v in self.acc]
+
+
 def _compositions(s: Spectrum, k: int, comb: Combination) -> Spectrum:
     r = len(s)
     order = s.order**k
@@ -213,6 +278,7 @@ def _compositions(s: Spectrum, k: int, comb: Combination) -> Spectrum:
     else:
         counts = np.arange(r * (k + 1), dtype=np.int64) % (k + 1)  # 0..k for each atom
         powers = self_power(comb, vec.take(np.repeat(np.arange(r), k + 1)), counts)
+    lin = _Linear(s, k, comb, powers)
     rem = np.array([k], dtype=np.int64)
     w = None  # the multiplicities: the first part sets them (r >= 2, see power())
     acc = None
@@ -250,8 +316,12 @@ def _compositions(s: Spectrum, k: int, comb: Combination) -> Spectrum:
             acc = apply(comb, acc if i == r - 1 else acc.take(src), term)
         else:
             acc = term
+        acc = lin.step(acc, i, c, None if i == r - 1 or i == 0 else src)
     if isinstance(acc, Rationals) and acc.wider_than(4096):
         acc = rationals_to_balls(acc)
+    hp = lin.hp_values()
+    if hp is not None:
+        return Spectrum.from_hp(hp, w, keep=HP_CANDIDATES)
     return Spectrum(acc, w, order=order)
 
 

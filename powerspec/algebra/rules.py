@@ -95,11 +95,11 @@ def apply(comb: Combination, x: Vec, y: Vec) -> Vec:
         alt = sx.mul(sy).sub(one)
         if b != 1:
             alt = alt.mul(const(x, 1 / b))
-        out = _tighter(out, alt)
+        out = tighter(out, alt)
     return out
 
 
-def _tighter(u: Balls, v: Balls) -> Balls:
+def tighter(u: Balls, v: Balls) -> Balls:
     """Elementwise the ball with the smaller absolute radius (both contain the value)."""
     with np.errstate(divide="ignore"):
         ru = np.where(u.rad > 0, np.log2(u.rad) + u.exp, -np.inf)
@@ -156,4 +156,4 @@ def pairs(x: Vec, y: Vec) -> tuple[Vec, Vec]:
     return x.take(np.repeat(np.arange(nx), ny)), y.take(np.tile(np.arange(ny), nx))
 
 
-__all__ = ["apply", "const", "pairs", "scale_shift", "self_power", "settle", "unify"]
+__all__ = ["apply", "const", "pairs", "scale_shift", "self_power", "settle", "tighter", "unify"]

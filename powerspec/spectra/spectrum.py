@@ -176,10 +176,10 @@ class Spectrum:
         return cls(Balls.from_floats(vals).real_if_possible(), m)
 
     @classmethod
-    def from_hp(cls, values: Sequence[HP], mult: Sequence[int]) -> Spectrum:
+    def from_hp(cls, values: Sequence[HP], mult: Sequence[int], keep: int = HP_KEEP) -> Spectrum:
         """Spectrum from high-precision scalars: exact rationals when all are, else balls.
 
-        Short lists are merged at high precision and keep it in :attr:`hp`
+        Lists of at most ``keep`` values are merged at high precision and keep it in :attr:`hp`
         (used for precise powers and extremes).  Their values are double balls
         when those are disjoint; when distinct atoms lie closer than a double
         resolves, their double images overlap and the values stay at high
@@ -194,7 +194,7 @@ class Spectrum:
         """
         if all(isinstance(v, fmpq) for v in values):
             return cls(Rationals.from_fractions(values), mult_array(mult))
-        if len(values) <= HP_KEEP:
+        if len(values) <= keep:
             merged, m = _merge_hp(HPValues(values), mult_array(mult))
             balls = to_balls(merged.items).real_if_possible()
             if len(merge_balls(balls, m)[0]) == len(balls):

@@ -1,0 +1,75 @@
+"""Strong powers keep distinct eigenvalues apart near -1 (no cancellation blow-up).
+
+Source for every check: the strong product's eigenvalue rule.  With loops 1/2, P(3) has
+eigenvalues 1/2 + {-sqrt 2, 0, sqrt 2} (P(3): textbook), so strong(loops(1/2, P(3))^k) has the
+eigenvalues (3/2 - sqrt 2)^a (3/2)^b (3/2 + sqrt 2)^c - 1, a + b + c = k, each with the multinomial
+multiplicity k!/(a! b! c!) -- all distinct (1 + sqrt 2 is a unit and 3 is not, so no power
+products coincide).  The reference enumerates them in mpmath at 150 digits.
+"""
+
+from __future__ import annotations
+
+import bisect
+import math
+
+import mpmath
+import pytest
+from flint import ctx, fmpq
+
+from powerspec.queries import planner
+
+
+def _reference(k: int) -> list[tuple[mpmath.mpf, int]]:
+    with mpmath.workdps(150):
+        lo, mid, hi = 1.5 - mpmath.sqrt(2), mpmath.mpf(1.5), 1.5 + mpmath.sqrt(2)
+        out = []
+        for a in range(k + 1):
+            for b in range(k + 1 - a):
+                c = k - a - b
+                m = math.factorial(k) // (math.factorial(a) * math.factorial(b) * math.factorial(c))
+                out.append((lo**a * mid**b * hi**c - 1, m))
+    return sorted(out)
+
+
+@pytest.mark.parametrize("k", [40, 100])
+def test_every_candidate_in_exactly_one_tight_atom(k):
+    ref = _reference(k)
+    ans = planner.spectrum(f"strong(loops(1/2, P(3))^{k})")
+    atoms = []
+    with mpmath.workdps(150), ctx.workprec(600):    # endpoints read exactly, not at 53 bits
+        for v, m in ans.listed_atoms():
+            if isinstance(v, fmpq):
+                lo = hi = mpmath.mpf(int(v.p)) / int(v.q)
+            else:
+                lo, hi = (mpmath.mpf(x.mid().str(120, radius=False)) for x in (v.lower(), v.upper()))
+                lo, hi = lo - abs(lo) * mpmath.mpf(10) ** -115, hi + abs(hi) * mpmath.mpf(10) ** -115
+            atoms.append((lo, hi, int(m)))
+        lows = [a[0] for a in atoms]
+        got = [0] * len(atoms)
+        spread = [[None, None] for _ in atoms]
+        for value, m in ref:
+            i = bisect.bisect_right(lows, value) - 1
+            assert i >= 0 and atoms[i][0] <= value <= atoms[i][1], value   # inside its atom
+            got[i] += m
+            s = spread[i]
+            s[0] = value if s[0] is None else min(s[0], value)
+            s[1] = value if s[1] is None else max(s[1], value)
+    assert got == [a[2] for a in atoms]            # each atom counts exactly its candidates
+    # distinct eigenvalues share an atom only when within 160-bit resolution of -1: values more
+    # than 1e-44 apart are never merged (the double-ball chain once merged everything up to 9e21)
+    assert all(s[1] - s[0] < mpmath.mpf("1e-44") for s in spread if s[0] is not None)
+    assert len(atoms) > 0.75 * len(ref)
+
+
+def test_mix_coefficients_written_as_fractions_are_exact():
+    # source: the rule x o y = x + y + b x y with b = 1/3 exactly; P(3)'s eigenvalues are
+    # +-sqrt 2 and 0 (textbook), so the largest eigenvalue of mix(1, 1/3, P(3)^2) is
+    # 2 sqrt 2 + 2/3 (mpmath at 50 digits).  With b read as the double 0.333...3148 it would be
+    # 4e-17 lower, outside the certified ball
+    ans = planner.spectrum("mix(1, 1/3, P(3)^2)")
+    top = ans.listed_atoms()[-1][0]
+    with mpmath.workdps(50), ctx.workprec(300):
+        truth = 2 * mpmath.sqrt(2) + mpmath.mpf(2) / 3
+        lo, hi = (mpmath.mpf(x.mid().str(60, radius=False)) for x in (top.lower(), top.upper()))
+    assert lo <= truth <= hi and hi - lo < mpmath.mpf("1e-30")
+    assert ans.expression == "mix(1, 1/3, P(3)^2)"
