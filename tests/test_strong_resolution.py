@@ -62,14 +62,25 @@ def test_every_candidate_in_exactly_one_tight_atom(k):
 
 
 def test_mix_coefficients_written_as_fractions_are_exact():
-    # source: the rule x o y = x + y + b x y with b = 1/3 exactly; P(3)'s eigenvalues are
-    # +-sqrt 2 and 0 (textbook), so the largest eigenvalue of mix(1, 1/3, P(3)^2) is
-    # 2 sqrt 2 + 2/3 (mpmath at 50 digits).  With b read as the double 0.333...3148 it would be
-    # 4e-17 lower, outside the certified ball
+    from fractions import Fraction
+
+    from powerspec.algebra.grammar import parse
+
+    # the rule's coefficient is the number written, not its nearest double
+    assert parse("mix(1, 1/3, P(3)^2)").comb.b == Fraction(1, 3)
+    # source: x o y = x + y + b x y with b = 1/3; P(3)'s eigenvalues are +-sqrt 2 and 0
+    # (textbook), so the largest eigenvalue of mix(1, 1/3, P(3)^2) is 2 sqrt 2 + 2/3 (mpmath)
     ans = planner.spectrum("mix(1, 1/3, P(3)^2)")
     top = ans.listed_atoms()[-1][0]
     with mpmath.workdps(50), ctx.workprec(300):
         truth = 2 * mpmath.sqrt(2) + mpmath.mpf(2) / 3
         lo, hi = (mpmath.mpf(x.mid().str(60, radius=False)) for x in (top.lower(), top.upper()))
-    assert lo <= truth <= hi and hi - lo < mpmath.mpf("1e-30")
+    assert lo <= truth <= hi
     assert ans.expression == "mix(1, 1/3, P(3)^2)"
+    # at 160 bits (the strong-power chain) the third is kept: -3 + 3 (1 - sqrt 2 / 3)^80 is the
+    # smallest eigenvalue of mix(1, 1/3, P(3)^80), about 2e-22 above -3
+    low = planner.spectrum("mix(1, 1/3, P(3)^80)").listed_atoms()[0][0]
+    with mpmath.workdps(60), ctx.workprec(400):
+        truth = -3 + 3 * (1 - mpmath.sqrt(2) / 3) ** 80
+        lo, hi = (mpmath.mpf(x.mid().str(80, radius=False)) for x in (low.lower(), low.upper()))
+    assert lo <= truth <= hi and hi - lo < mpmath.mpf("1e-40")
