@@ -1,6 +1,6 @@
 """Benchmark: reach of the symmetry tier, and the sorted-degree heuristic measured against it.
 
-Run:  python benchmarks/symmetry.py [--workers N] [--quick] [--long]
+Run:  python benchmarks/symmetry.py [--workers N] [--quick] [--long] [--ends-only]
 
 (a) Reach: the certified Laplacian spectrum of direct powers G^k of small irregular
     factors (paths, stars, weighted graphs), with and without the exact split of a
@@ -14,6 +14,13 @@ Run:  python benchmarks/symmetry.py [--workers N] [--quick] [--long]
 (b) The sorted-degree approximation (pair the i-th smallest Laplacian eigenvalue with
     the i-th smallest degree) against the exact multiset: max and mean absolute error
     for direct and strong powers as k grows.
+(c) Reach of the ends only (``laplacian_ends``: λ_max(L) or the second smallest a(L)):
+    per product, the blocks in the plan and those built, the full certified spectrum's
+    time (``laplacian_blocks``, its dense budget) against the ends with dense blocks only
+    and with the Cholesky route for large blocks, the certified interval, and the largest
+    k answered within 30 s.  (For direct powers of bipartite factors a(L) = 0 follows from
+    the component count, so the a(L) rows are strong powers.)  Medians of 3 runs, one run
+    for rows over 10 s.
 
 Set OPENBLAS_NUM_THREADS=1 for a fair single-threaded explicit baseline on a shared
 machine; the symmetry tier's pool workers always use one BLAS thread each.
@@ -33,7 +40,11 @@ import scipy.sparse as sp
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from powerspec.tiers.symmetry import PowerOperand, blocks, plan  # noqa: E402
+import timing  # noqa: E402  (benchmarks/timing.py, beside this script)
+
+from powerspec.algebra.grammar import parse  # noqa: E402
+from powerspec.tiers.invariant_blocks import laplacian_blocks, laplacian_ends  # noqa: E402
+from powerspec.tiers.symmetry import PowerOperand, SymmetryError, blocks, plan  # noqa: E402
 from powerspec.tiers.symmetry.heuristic import compare_sorted, sorted_degree_laplacian  # noqa: E402
 
 
@@ -159,14 +170,75 @@ def heuristic_table(workers: int, quick: bool) -> None:
                       f"{rho:12.6g}", flush=True)
 
 
+def _timed(fn) -> tuple[object, float]:
+    """(result or the refusal text, median seconds): one run for calls over 10 s, else 3."""
+    t0 = time.perf_counter()
+    try:
+        out = fn()
+    except SymmetryError as exc:
+        return str(exc), time.perf_counter() - t0
+    first = time.perf_counter() - t0
+    return out, (first if first > 10 else timing.median_time(fn, repeats=3))
+
+
+def ends_row(template: str, k: int, top: bool) -> float | None:
+    """Print one row of table (c); return the ends time when certified, else None."""
+    node = parse(template % k)
+
+    def full():
+        bs = laplacian_blocks(node)
+        return bs.largest_bounds() if top else bs.kth_smallest(2)
+
+    got_full, t_full = _timed(full)
+    got, t_ends = _timed(lambda: laplacian_ends(node, top=top, bottom=not top))
+    if isinstance(got, str):
+        print(f"{template % k:>22} {'max' if top else 'a(L)':>5}  ends refused: {got}", flush=True)
+        return None
+    pair = got.largest if top else got.second
+    t_dense = "-"
+    if got.large and got.largest_dim <= 2600:  # '-': not run (a dense solve of a larger block)
+        dense, t = _timed(lambda: laplacian_ends(node, top=top, bottom=not top, large_from=10**9))
+        t_dense = "refused" if isinstance(dense, str) else f"{t:.2f}"
+    elif not got.large:
+        t_dense = f"{t_ends:.2f}"
+    full_text = "refused" if isinstance(got_full, str) else f"{t_full:.2f}"
+    print(f"{template % k:>22} {'max' if top else 'a(L)':>5} {float(node.order):>9.3g} {got.blocks:>6} "
+          f"{got.computed:>5} {got.largest_dim:>5} {got.large:>5} {full_text:>8} {t_dense:>8} "
+          f"{t_ends:>8.2f}  [{pair[0]:.12g}, {pair[1]:.12g}]", flush=True)
+    return t_ends if pair[0] > 0 else None
+
+
+def ends_table(quick: bool, long: bool) -> None:
+    print()
+    print("(c) ends only: lambda_max(L) ('max') or the 2nd smallest eigenvalue ('a(L)'); times in s: "
+          "'full' = whole certified spectrum (dense budget), 'dense' = ends with dense blocks only, "
+          "'ends' = ends with the Cholesky route from d = 320")
+    print(f"{'product':>22} {'end':>5} {'vertices':>9} {'blocks':>6} {'built':>5} {'max d':>5} "
+          f"{'chol':>5} {'full':>8} {'dense':>8} {'ends':>8}  certified interval")
+    families = [("direct(P(3)^%d)", True, [100, 101, 102, 200] + ([] if quick else [300, 398])),
+                ("direct(K(1, 3)^%d)", True, [15, 16, 30] + ([] if quick else [50, 70, 80, 86])),
+                ("strong(K(1, 3)^%d)", False, [14, 16, 20] + ([] if quick else [24, 26])),
+                ("strong(P(3)^%d)", False, [30, 60] + ([] if quick else [64, 70, 104]))]
+    for template, top, ks in families:
+        best = None
+        for k in ks:
+            t = ends_row(template, k, top)
+            if t is not None and t <= 30:
+                best = k
+        print(f"{'':>22} reach within 30 s on these rows: k = {best}", flush=True)
+
+
 def main(argv: list[str] | None = None) -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--workers", type=int, default=2)
     parser.add_argument("--quick", action="store_true", help="small rows only (about a minute)")
     parser.add_argument("--long", action="store_true", help="add the largest rows (P3 at k = 35, ...)")
+    parser.add_argument("--ends-only", action="store_true", help="only table (c)")
     args = parser.parse_args(argv)
-    reach_table(args.workers, args.quick, args.long)
-    heuristic_table(args.workers, args.quick)
+    if not args.ends_only:
+        reach_table(args.workers, args.quick, args.long)
+        heuristic_table(args.workers, args.quick)
+    ends_table(args.quick, args.long)
 
 
 if __name__ == "__main__":

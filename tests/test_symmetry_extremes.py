@@ -50,6 +50,7 @@ STAR = np.array([[0.0, 1, 1, 1], [1, 0, 0, 0], [1, 0, 0, 0], [1, 0, 0, 0]])
 P4 = np.array([[0.0, 1, 0, 0], [1, 0, 1, 0], [0, 1, 0, 1], [0, 0, 1, 0]])
 WPATH = np.array([[0.0, 1.0, 0, 0], [1.0, 0, 2.5, 0], [0, 2.5, 0, 0.5], [0, 0, 0.5, 0]])  # weighted path
 LOOPED = P3 + np.diag([0.5, 0.0, 0.0])  # non-bipartite: its direct powers are connected
+SIGNED = np.array([[0.0, 1, 0, 0], [1, 0, -0.5, 0], [0, -0.5, 0, 2.0], [0, 0, 2.0, 0]])  # L not >= 0
 RULES = {"direct": (0, 1), "strong": (1, 1), "mix(0,0.5)": (0, 0.5)}
 
 
@@ -75,7 +76,7 @@ def _covers(pair, value, allowance) -> bool:
 GRID = [(P3, 2, "direct"), (P3, 5, "direct"), (P3, 6, "strong"), (STAR, 3, "direct"),
         (STAR, 4, "strong"), (P4, 4, "direct"), (P4, 3, "strong"), (WPATH, 3, "direct"),
         (WPATH, 4, "strong"), (LOOPED, 5, "direct"), (LOOPED, 4, "strong"), (P3, 4, "mix(0,0.5)"),
-        (STAR, 3, "mix(0,0.5)")]
+        (STAR, 3, "mix(0,0.5)"), (SIGNED, 3, "direct"), (SIGNED, 3, "strong")]
 
 
 @pytest.mark.parametrize("large_from", [1, 10**9])

@@ -23,7 +23,9 @@ The invariants (adjacency A, Laplacian L = D - A with out-degrees unless
 
 Where the Laplacian does not factor (direct / strong products of irregular
 factors) the symmetry tier's blocks answer when its plan is small enough
-(checked first), else Weyl brackets and moment bounds, and the method says so.
+(checked first); past that, ``laplacian_spectral_radius`` and
+``algebraic_connectivity`` come from the blocks' ends alone (a larger budget,
+also checked first), else Weyl brackets and moment bounds, and the method says so.
 No source builds anything whose size grows with k.
 
 >>> inv = invariants("cart(K(2)^3)").invariants

@@ -2,8 +2,9 @@
 
 Values come from the certified extremes (160-bit balls; any k), the exact
 spectrum when it is small, the symmetry tier's blocks for Laplacians that do
-not factor, or Weyl brackets with the exact degree range -- in that order --
-and each entry's method says which.
+not factor (the whole block spectrum, or past its budget only the blocks' ends),
+or Weyl brackets with the exact degree range -- in that order -- and each
+entry's method says which.
 
 Gaps are computed where they live: for additive (Cartesian) rules the
 eigenvalues near the top are the top minus a few operand gaps, so

@@ -300,7 +300,7 @@ class LaplacianEnds:
 EXTREMES_MAX_WORK = 3 * 10**10
 """Largest plan work for the ends only: sum over the blocks that can hold an end of d^3
 (dense blocks at full weight, the Cholesky route's at :data:`LARGE_COST`) plus
-:data:`BLOCK_OVERHEAD` each; about 20 s of one core on the project machine."""
+:data:`BLOCK_OVERHEAD` each; about 30 s with one BLAS thread on the (shared) project machine."""
 
 BLOCK_OVERHEAD = 10**7
 """Fixed cost of one block in units of d^3 (about 10 ms: its module, rotations and solve setup)."""
@@ -340,7 +340,9 @@ def laplacian_ends(node: Node, direction: str = "out", *, top: bool = True, bott
     end first for the bottom), each computed only while it can still change a bound; blocks
     of size ``large_from`` and more take the Cholesky route of
     :func:`~powerspec.tiers.symmetry.extremes.block_ends`.  A block never computed
-    contributes its Weyl enclosure, so both answers hold whatever is skipped.
+    contributes its Weyl enclosure, so both answers hold whatever is skipped.  With
+    non-negative weights L >= 0, so lower bounds of the second smallest are clipped at 0 and
+    blocks whose float error alone exceeds the current upper bound are not solved.
 
     >>> from powerspec.algebra.grammar import parse
     >>> e = laplacian_ends(parse("strong(P(3)^3)"))
@@ -351,6 +353,8 @@ def laplacian_ends(node: Node, direction: str = "out", *, top: bool = True, bott
     if isinstance(got, str):
         raise SymmetryError(got)
     ops, a, b, widen = got
+    # non-negative weights: L is diagonally dominant with a non-negative diagonal, hence L >= 0
+    psd = a >= 0 and b >= 0 and all(bool(np.all(op.adjacency >= 0)) for op in ops)
     the_plan = plan(ops, a, b, "laplacian")
     if the_plan.blocks > EXTREMES_MAX_BLOCKS:
         raise SymmetryError(f"symmetry plan too large for the ends: {the_plan.blocks} blocks "
@@ -395,8 +399,8 @@ def laplacian_ends(node: Node, direction: str = "out", *, top: bool = True, bott
     for i in sorted((i for i in needed if need_bot[i]), key=lambda i: enc[i][0]):
         if enc[i][0] >= ub_bot:
             break
-        if U * max(abs(enc[i][0]), abs(enc[i][1])) >= ub_bot:
-            continue  # any float solve of this block errs by more than the end it could bound
+        if psd and U * max(abs(enc[i][0]), abs(enc[i][1])) >= ub_bot:
+            continue  # a float solve errs by more than the end: its lower bound would be <= 0
         e = done.get(i)
         if e is None or not math.isfinite(e.low[1]):
             e = compute(i, False, True)
@@ -419,7 +423,8 @@ def laplacian_ends(node: Node, direction: str = "out", *, top: bool = True, bott
             l2 = max(l1, e.second[0]) if s.multiplicity == 1 else l1
             lows += [(l1, 1), (l2, 1)] if s.multiplicity * s.dim >= 2 else [(l1, 1)]
             ups += _upper_entries(e, s, enc[i][1])
-        second = (_two_smallest(lows), min(_two_smallest(ups), ub_bot))
+        low = max(_two_smallest(lows), 0.0) if psd else _two_smallest(lows)
+        second = (low, min(_two_smallest(ups), ub_bot))
     large = sum(1 for e in done.values() if e.route == "cholesky")
     return LaplacianEnds(largest, second, the_plan.blocks, len(done), large,
                          max((specs[i].dim for i in done), default=0), the_plan.order)

@@ -18,9 +18,12 @@ Public API: :class:`PowerOperand`, :func:`plan` (cheap size check),
 :func:`blocks` (the certified blocks; local, process-pool or Dask),
 :class:`Block`, :class:`SymmetryPlan`, :class:`SymmetryError`, and the
 sorted-degree heuristic in :mod:`~powerspec.tiers.symmetry.heuristic`.
-Module map (dependencies point down): parallel -> block -> plan -> reduction ->
-factor -> rotations -> rigor -> patterns -> combinatorics; represent and heuristic
-are leaves used by tests and benchmarks.
+:mod:`~powerspec.tiers.symmetry.extremes` certifies only the ends of a block
+(Cholesky inertia tests around LAPACK candidates) and encloses every block's
+spectrum from its diagonals before it is built (Weyl's inequalities).
+Module map (dependencies point down): extremes -> parallel -> block -> plan ->
+reduction -> factor -> rotations -> rigor -> patterns -> combinatorics; represent
+and heuristic are leaves used by tests and benchmarks.
 
 >>> import numpy as np
 >>> p3 = PowerOperand(np.array([[0., 1, 0], [1, 0, 1], [0, 1, 0]]), np.array([1., 2, 1]), 3)

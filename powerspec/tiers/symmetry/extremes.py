@@ -117,7 +117,11 @@ def perron_upper(r: np.ndarray) -> float:
 
 def _factor(b: np.ndarray, sigma: float, negate: bool, rank_one: np.ndarray | None
             ) -> tuple[float, np.ndarray] | None:
-    """(rigorous ||A - (M - σ I)||_2 bound, upper Cholesky factor) of fl(M - σ I), or None."""
+    """(η, R̂): the upper Cholesky factor of fl(M - σ I), R̂^T R̂ = M - σ I + E with ||E||_2 <= η.
+
+    M = B̃ (or -B̃), plus y y^T; E gathers the rounding of forming the matrix and the
+    factorisation's backward error (module docstring).  None when the factorisation fails.
+    """
     if not math.isfinite(sigma):
         return None
     a = -b if negate else b.copy()
