@@ -6,8 +6,10 @@ subprocess.run (start-up included).  Peak memory is the child's ru_maxrss.  Rows
 
 1. law-tier quantiles (direct(K(3)^k), strong(P(3)^k)) at k = 10^9 ... 10^18: time, peak memory
    and growth with k; the CLI against a bare ``python -c "import numpy, scipy.special, mpmath"``;
-2. cdf / count / quantile from the CLI against the same bare start-up; ``auto`` against every
-   tier that meets the default width (ratio of auto's time to the cheapest meeting one);
+2. cdf / count / quantile from the CLI against the same bare start-up (the two alternating run by
+   run), the bracket-tier queries also with a bytecode cache (this machine sets
+   PYTHONDONTWRITEBYTECODE=1); ``auto`` against every tier that meets the default width (ratio
+   of auto's time to the cheapest meeting one);
 3. the bracket tier, cart(C(5)^k), tol 1e-3, k = 10^2 ... 10^4;
 4. top 'direct(P(4)^1000000)' -m 5 and 5. invariants 'direct(motif()^1000000)', process memory;
 6. the exact spectrum of cart(K(2)^k) against python-flint's (1 + x)^k (the binomial row: the
@@ -51,19 +53,54 @@ def median_time(fn, repeats: int = REPEATS, warm: bool = True) -> float:
     return timing.median_time(fn, repeats, warm)
 
 
-def proc(args: list[str], repeats: int = REPEATS) -> tuple[float, float]:
+def proc(args: list[str], repeats: int = REPEATS, env: dict | None = None) -> tuple[float, float]:
     """(median wall seconds, largest peak RSS in MiB) of a fresh interpreter running ``args``."""
     ts, rss = [], 0.0
     for _ in range(repeats):
-        code = ("import resource, subprocess, sys, time; t = time.perf_counter(); "
-                f"subprocess.run({args!r}, check=True, capture_output=True); "
-                "print(time.perf_counter() - t, "
-                "resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)")
-        out = subprocess.run([PY, "-c", code], check=True, capture_output=True, text=True)
-        t, m = out.stdout.split()
-        ts.append(float(t))
-        rss = max(rss, int(m) / 1024)
+        t, m = _one_proc(args, env)
+        ts.append(t)
+        rss = max(rss, m)
     return statistics.median(ts), rss
+
+
+def _one_proc(args: list[str], env: dict | None = None) -> tuple[float, float]:
+    """(wall seconds, peak RSS in MiB) of one fresh interpreter running ``args``."""
+    code = ("import resource, subprocess, sys, time; t = time.perf_counter(); "
+            f"subprocess.run({args!r}, check=True, capture_output=True); "
+            "print(time.perf_counter() - t, "
+            "resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)")
+    out = subprocess.run([PY, "-c", code], check=True, capture_output=True, text=True, env=env)
+    t, m = out.stdout.split()
+    return float(t), int(m) / 1024
+
+
+def paired(args: list[str], repeats: int = REPEATS, env: dict | None = None):
+    """(median command seconds, median bare seconds, peak MiB): the two alternate run by run.
+
+    On a shared machine the load drifts; alternating the command with the bare start-up keeps
+    both sides of the ratio under the same load.
+    """
+    tc, tb, rss = [], [], 0.0
+    for _ in range(repeats):
+        t, m = _one_proc(args, env)
+        tc.append(t)
+        rss = max(rss, m)
+        tb.append(_one_proc(BARE, env)[0])
+    return statistics.median(tc), statistics.median(tb), rss
+
+
+def bytecode_env() -> dict:
+    """The environment with Python's bytecode cache on, in a private directory (warm it first).
+
+    This machine sets PYTHONDONTWRITEBYTECODE=1, so every start compiles the package's sources
+    again; an installed package has its bytecode compiled once.  Both sides of a ratio are
+    measured in the same environment.
+    """
+    import tempfile
+    env = dict(os.environ)
+    env.pop("PYTHONDONTWRITEBYTECODE", None)
+    env["PYTHONPYCACHEPREFIX"] = tempfile.mkdtemp(prefix="powerspec-bench-pyc-")
+    return env
 
 
 def cli(*args: str) -> list[str]:
@@ -106,15 +143,35 @@ def law_tier(bare: float) -> None:
 # ------------------------------------------------------- 2. CLI start-up and auto
 def startup_and_auto(bare: float) -> None:
     print(f"\n2. CLI against bare start-up ({fmt(bare)}: python -c 'import numpy, scipy.special, "
-          "mpmath'; median of 5 process wall times)")
+          "mpmath'; median of 5 process wall times, command and bare start-up alternating)")
+    cached = bytecode_env()
     for args in (("cdf", "cart(C(5)^1000000)", "10"), ("count", "cart(C(5)^1000000)", "0", "10"),
-                 ("quantile", "cart(C(5)^1000)", "0.3"), ("cdf", "cart(C(5)^100)", "0", "--tol",
-                                                          "0.01")):
-        t, mem = proc(cli(*args))
-        row("powerspec " + " ".join(args), fmt(t), f"{mem:.0f} MiB", f"{t / bare:.2f}x",
+                 ("cdf", "cart(C(5)^100)", "0", "--tol", "0.01")):
+        t, tb, mem = paired(cli(*args))
+        row("powerspec " + " ".join(args), fmt(t), f"{mem:.0f} MiB", f"{t / tb:.2f}x",
             "target <= 2.5x")
-    t, _ = proc([PY, "-c", "import powerspec.interfaces.cli"])
-    row("import powerspec.interfaces.cli", fmt(t), "", f"{t / bare:.2f}x", "")
+    # the bracket-tier queries, also with a bytecode cache (see bytecode_env)
+    _one_proc(cli("quantile", "cart(C(5)^1000)", "0.3"), cached)  # fills the cache
+    row("bracket tier", "time", "peak", "ratio", "bytecode cached: ratio")
+    for args in (("quantile", "cart(C(5)^1000)", "0.3"), ("cdf", "cart(C(5)^1000)", "1.0"),
+                 ("count", "cart(C(5)^1000)", "0.5", "2.5"), ("cdf", "cart(C(7)^200)", "1.0"),
+                 ("quantile", "cart(C(7)^200)", "0.3")):
+        t, tb, mem = paired(cli(*args))
+        tc, tbc, _ = paired(cli(*args), env=cached)
+        row("powerspec " + " ".join(args), fmt(t), f"{mem:.0f} MiB", f"{t / tb:.2f}x",
+            f"{fmt(tc)} {tc / tbc:.2f}x (target <= 2.5x)")
+    # an endpoint on an atom (0 = 2*200 + 400*(0.618...) + 400*(-1.618...)): only the exact tier
+    args = ("count", "cart(C(5)^1000)", "0", "2")
+    t, tb, mem = paired(cli(*args), 3)
+    row("powerspec " + " ".join(args), fmt(t), f"{mem:.0f} MiB", f"{t / tb:.2f}x",
+        "exact tier (atoms at 0)")
+    t_in = median_time(lambda: quantile("cart(C(5)^1000)", 0.3))
+    t_imp, t_bare, _ = paired([PY, "-c", "import powerspec.interfaces.cli"])
+    t_impc, t_barec, _ = paired([PY, "-c", "import powerspec.interfaces.cli"], env=cached)
+    print(f"    quantile 'cart(C(5)^1000)' 0.3 in-process: {fmt(t_in)}; import of the command line "
+          f"over the bare start-up: {fmt(t_imp - t_bare)} ({fmt(t_impc - t_barec)} with bytecode)")
+    row("import powerspec.interfaces.cli", fmt(t_imp), "", f"{t_imp / t_bare:.2f}x",
+        f"{fmt(t_impc)} {t_impc / t_barec:.2f}x with bytecode")
     out = subprocess.run([PY, "-X", "importtime", "-c", "import powerspec.interfaces.cli"],
                          capture_output=True, text=True).stderr
     rows = []
@@ -185,12 +242,14 @@ def extremes() -> None:
 def hypercube() -> None:
     import scipy.sparse as sp
     from flint import fmpz_poly
-    print("\n6. exact spectrum of cart(K(2)^k) against python-flint (1 + x)^k (in-process, median of 5)")
+    print("\n6. exact spectrum of cart(K(2)^k) against python-flint (1 + x)^k (in-process, median of "
+          "201 up to k = 1000, of 5 beyond)")
     row("k", "powerspec", "flint row", "ratio", "target <= 1.5x (k >= 10^3)")
     prev = None
     for k in (10, 100, 1000, 10**4, 10**5):
         e = f"cart(K(2)^{k})"
-        r = REPEATS if k < 10**5 else 3
+        # sub-millisecond calls: many repeats, so that the median is not one scheduling hiccup
+        r = 201 if k <= 1000 else REPEATS if k < 10**5 else 3
         t = median_time(lambda e=e: ps.spectrum(e), r)
         f = median_time(lambda k=k: fmpz_poly([1, 1]) ** k, r)
         grow = f"  x{t / prev:.1f} per 10x k" if prev else ""
@@ -297,17 +356,24 @@ def output() -> None:
         row(bits, *(fmt(t) for t in ts))
 
 
-def main() -> None:
+SECTIONS = {"1": "law_tier", "2": "startup_and_auto", "3": "bracket_tier", "4": "extremes",
+            "6": "hypercube", "7": "output"}
+"""Section numbers to functions: ``python benchmarks/performance.py 2 6`` runs only those."""
+
+
+def main(argv: list[str] | None = None) -> None:
+    wanted = argv if argv else list(SECTIONS)
+    unknown = [w for w in wanted if w not in SECTIONS]
+    if unknown:
+        raise SystemExit(f"unknown section(s) {', '.join(unknown)}; choose from {', '.join(SECTIONS)}")
     print(f"python {sys.version.split()[0]}, numpy {np.__version__}; {os.cpu_count()} cores; "
           f"load average {os.getloadavg()[0]:.2f}")
-    bare, _ = proc(BARE)
-    law_tier(bare)
-    startup_and_auto(bare)
-    bracket_tier()
-    extremes()
-    hypercube()
-    output()
+    bare = proc(BARE)[0] if {"1", "2"} & set(wanted) else float("nan")
+    for w in wanted:
+        fn = globals()[SECTIONS[w]]
+        fn(bare) if w in ("1", "2") else fn()
+    print(f"load average at the end {os.getloadavg()[0]:.2f}")
 
 
 if __name__ == "__main__":
-    main()
+    main(sys.argv[1:])
