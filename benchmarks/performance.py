@@ -30,7 +30,6 @@ import os
 import statistics
 import subprocess
 import sys
-import time
 from pathlib import Path
 
 import numpy as np
@@ -274,73 +273,39 @@ def hypercube() -> None:
 
 
 # ------------------------------------------------------------- 7. / 8. output
-def _count_text_fast(n: int, digits: int = 40) -> str:
-    """Prototype of the proposed answers/answer.count_text: leading digits from the top 192 bits.
-
-    log10(n) from the top bits in Arb (python-flint, 192-bit balls): the digit count and the 12
-    leading digits rounded as the current code rounds them, without converting n or forming
-    10^d; a ball that does not decide them falls back to exact integers.
-    """
-    from flint import arb, ctx
-    if n.bit_length() <= 3.32 * digits:
-        return str(n)
-    b = n.bit_length()
-    s = max(0, b - 192)
-    old = ctx.prec
-    ctx.prec = 192
-    try:
-        lg = (arb(n >> s).log() + s * arb(2).log()) / arb(10).log()
-        e = int(lg.floor().unique_fmpz() or 0)
-        if not (lg - e > 0 and lg - e < 1):
-            return _count_text_exact(n)
-        lead = (arb(10) ** (lg - e + 11)).mid()  # 10^(frac + 11): the 12 digits before rounding
-        q = int((lead + arb(0.5)).floor().unique_fmpz() or 0)
-        if abs(float(lead - arb(q)) + 0.5) < 1e-9 or abs(float(lead - arb(q)) - 0.5) < 1e-9:
-            return _count_text_exact(n)  # a tie in the 13th digit: decide exactly
-    finally:
-        ctx.prec = old
-    shown = e
-    if q >= 10**12:  # 9.999...e+e rounds up to 1.0e+(e+1); the digit count stays e + 1
-        q, shown = q // 10, e + 1
-    t = str(q)
-    return f"{t[0]}.{t[1:]}e+{shown} (an integer of {e + 1} digits)"
-
-
-def _count_text_exact(n: int) -> str:
-    from powerspec.answers.answer import count_text
-    return count_text(n)
-
-
 def output() -> None:
-    from powerspec.answers.answer import count_text
+    from powerspec.answers.answer import count_text, count_texts, dump_json
+    from powerspec.interfaces.report import answer_text, truncated_json
     from powerspec.queries import planner
-    print("\n7./8. output formatting (in-process, one run each: they take seconds)")
+    print("\n7./8. output formatting of the hypercube's exact spectrum (in-process, median of 3)")
+    row("run", "compute", "output", "share", "target")
     for k in (30000, 100000):
-        t = time.perf_counter()
-        ans = planner.spectrum(f"cart(K(2)^{k})")
-        tc = time.perf_counter() - t
-        t = time.perf_counter()
-        text = ans.to_text()
-        tt = time.perf_counter() - t
-        row(f"Q_{k}: compute / text", fmt(tc), fmt(tt), f"{tt / (tc + tt):.0%} output",
-            "target <= 20%")
+        e = f"cart(K(2)^{k})"
+        tc = median_time(lambda e=e: planner.spectrum(e), 3)
+        ans = planner.spectrum(e)
+        td = median_time(lambda a=ans: answer_text(a), 3)
+        ta = median_time(lambda a=ans: answer_text(a, full=True), 3)
+        row(f"Q_{k} text (summary rows)", fmt(tc), fmt(td), f"{td / (tc + td):.0%}", "<= 20%")
+        row(f"Q_{k} text --all ({k + 1} rows)", fmt(tc), fmt(ta), f"{ta / (tc + ta):.0%}",
+            "<= 20%")
         mults = [int(m) for m in ans.atoms.mult.tolist()]
-        t = time.perf_counter()
-        for m in mults:
-            count_text(m)
-        t_now = time.perf_counter() - t
-        t = time.perf_counter()
-        fast = [_count_text_fast(m) for m in mults]
-        t_new = time.perf_counter() - t
-        same = all(f == count_text(m) for f, m in zip(fast[::97], mults[::97], strict=True))
-        row(f"  count_text of the {len(mults)} multiplicities", fmt(t_now), fmt(t_new),
-            f"{t_now / t_new:.1f}x", f"same text: {same}")
+        t1 = median_time(lambda ms=mults: [count_text(m) for m in ms], 3)
+        tb = median_time(lambda ms=mults: count_texts(ms), 3)
+        row("  leading digits: per count / batch", fmt(t1), fmt(tb), f"{t1 / tb:.1f}x faster", "")
         if k == 30000:
-            t = time.perf_counter()
-            js = ans.to_json()
-            tj = time.perf_counter() - t
-            row(f"Q_{k}: JSON / text", fmt(tj), fmt(tt), f"{tj / tt:.2f}x",
-                f"{len(js) / 1e6:.0f} MB vs {len(text) / 1e6:.1f} MB")
+            tj = median_time(lambda a=ans: dump_json(truncated_json(a, None), end="\n"), 3)
+            size = len(dump_json(truncated_json(ans, None))) / 1e6
+            row(f"Q_{k} JSON ({size:.0f} MB of exact digits)", fmt(tc), fmt(tj),
+                f"{tj / ta:.1f}x the --all text", "")
+    print("   the same from the command line (process to process, median of 3; output to a pipe)")
+    row("command", "wall", "peak MiB", "ratio", "target")
+    e = "cart(K(2)^30000)"
+    base, _ = proc(cli("spectrum", e), 3)
+    row("spectrum Q_30000 (text, summary)", fmt(base), "", "1.0x", "")
+    for extra in (["--all"], ["--json"]):
+        t, m = proc(cli("spectrum", e, *extra), 3)
+        row(f"spectrum Q_30000 {extra[0]}", fmt(t), f"{m:.0f}", f"{t / base:.1f}x the text",
+            "<= 2x (--json)" if extra == ["--json"] else "")
     import flint
     sys.set_int_max_str_digits(0)
     try:

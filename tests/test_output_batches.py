@@ -121,3 +121,37 @@ def test_values_next_to_an_integer_print_their_offset(capsys):
         assert abs(mpmath.mpf(dtext) - d) <= mpmath.mpf(radius)   # every printed digit covered
         texts.append(dtext)
     assert len(set(texts)) == 3                                     # distinct atoms, distinct text
+
+
+def _scan_zero(pairs):
+    """Reference: the exact-zero atom and 'some ball may hold 0', one pair at a time."""
+    from flint import acb, arb, fmpq
+    zero, maybe = None, False
+    for v, m in pairs:
+        if isinstance(v, fmpq):
+            z = h = v == 0
+        elif isinstance(v, acb):
+            z, h = v.real.is_zero() and v.imag.is_zero(), v.contains(0)
+        else:
+            assert isinstance(v, arb)
+            z, h = v.is_zero(), v.contains(0)
+        zero = m if z else zero
+        maybe = maybe or h
+    return zero, maybe
+
+
+def test_zero_atoms_and_row_slices_match_the_full_listing():
+    # sources: the 4-cube has 0 with multiplicity C(4, 2) = 6 and direct(P(3)^3) has 0 with
+    # multiplicity 27 - 8 = 19 (textbook); C5's pairwise sums exclude 0 (see test_report)
+    cases = {"cart(K(2)^4)": 6, "direct(P(3)^3)": 19, "cart(C(5)^2)": None,
+             "strong(loops(1/2, P(3))^100)": None, "cart(dicycle(3)^2)": None}
+    for e, nullity in cases.items():
+        ans = planner.spectrum(e)
+        pairs = ans.listed_atoms()
+        assert ans.zero_atoms() == _scan_zero(pairs), e
+        assert ans.zero_atoms()[0] == nullity, e
+        n = len(pairs)
+        for rows in (slice(0, 3), slice(-3, None), slice(0, n)):
+            assert [str(v) for v, _ in ans.listed_atoms(rows)] == [str(v) for v, _ in pairs[rows]]
+    top = planner.top("direct(P(3)^3)", 3)                    # listed largest first
+    assert top.listed_atoms(slice(0, 2)) == top.listed_atoms()[:2]

@@ -33,9 +33,11 @@ import numpy as np
 from flint import acb, arb, fmpq
 
 from powerspec.errors import InputError
+from powerspec.numbers.balls import Balls
 from powerspec.numbers.counts import BigCount, to_arb
 from powerspec.numbers.digits import JSON_INT_DIGITS, ball_text, int_text, json_text, radius_text
 from powerspec.numbers.hp import working
+from powerspec.numbers.rationals import Rationals
 from powerspec.spectra.spectrum import Spectrum
 
 TEXT_DIGITS = 40
@@ -69,11 +71,46 @@ class Answer:
     descending: bool = False
 
     # ------------------------------------------------------------- atoms
-    def listed_atoms(self) -> list[tuple[Any, Any]]:
-        """(certified value, exact multiplicity) pairs in the listing order."""
+    def listed_atoms(self, rows: slice | None = None) -> list[tuple[Any, Any]]:
+        """(certified value, exact multiplicity) pairs in the listing order; ``rows`` (a slice of
+        that order) converts only those atoms (a summary of 10^5 rows shows 20)."""
         sp = self.atoms
+        if rows is not None:
+            idx = np.arange(len(sp))
+            idx = (idx[::-1] if self.descending else idx)[rows]
+            sp = Spectrum(sp.values.take(idx), sp.mult[idx], order=sp.order, merged=True)
+            return list(zip(sp.balls(), [_plain(m) for m in sp.mult.tolist()], strict=True))
         pairs = list(zip(sp.balls(), [_plain(m) for m in sp.mult.tolist()], strict=True))
         return pairs[::-1] if self.descending else pairs
+
+    def zero_atoms(self) -> tuple[Any, bool]:
+        """(multiplicity of an atom exactly 0 or None, True when some atom's ball may hold 0).
+
+        Decided on the value arrays at once (a ball may hold 0 when 0 lies in its bounding box
+        -- a superset, so "no atom holds 0" is never claimed wrongly).
+        """
+        sp = self.atoms
+        v = sp.values
+        if isinstance(v, Rationals):
+            hit = np.flatnonzero(v.num == 0)
+            return (_plain(sp.mult[hit[0]]) if hit.size else None), bool(hit.size)
+        if isinstance(v, Balls):
+            exact = np.flatnonzero((v.rad == 0) & (v.mid == 0))
+            box = np.abs(v.mid.real) <= v.rad
+            if v.is_complex:
+                box &= np.abs(v.mid.imag) <= v.rad
+            return (_plain(sp.mult[exact[0]]) if exact.size else None), bool(np.any(box))
+        zero, maybe = None, False
+        for x, m in zip(sp.balls(), sp.mult.tolist(), strict=True):
+            if isinstance(x, fmpq):
+                is_zero = holds = x == 0
+            elif isinstance(x, acb):
+                is_zero, holds = x.real.is_zero() and x.imag.is_zero(), x.contains(0)
+            else:
+                is_zero, holds = x.is_zero(), x.contains(0)
+            zero = _plain(m) if is_zero else zero
+            maybe = maybe or holds
+        return zero, maybe
 
     # ------------------------------------------------------ conversions
     def values(self) -> np.ndarray:

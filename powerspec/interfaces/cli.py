@@ -172,7 +172,7 @@ def _run(args: argparse.Namespace) -> str:
             ans = planner.spectrum(args.expression, args.matrix, limit=args.limit,
                                    degrees=args.degrees, **parallel)
             if args.json:
-                return dump_json(truncated_json(ans, args.head)) + "\n"
+                return dump_json(truncated_json(ans, args.head), end="\n")
             return answer_text(ans, head=args.head, full=args.all)
         if command == "top":
             ans = planner.top(args.expression, args.m, args.matrix, bottom=args.bottom,

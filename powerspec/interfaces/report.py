@@ -36,7 +36,7 @@ import math
 from fractions import Fraction
 from typing import Any
 
-from flint import acb, arb, fmpq
+from flint import arb
 
 from powerspec.answers.answer import Answer, atom_rows, count_text, value_text
 from powerspec.numbers.counts import BigCount, fraction_of
@@ -85,26 +85,12 @@ def share_text(part: Any, whole: Any) -> str:
     return ball_text(arb(ball.mid(), max(float(ball.rad()), abs(float(ball.mid())) * 1e-12)))[0]
 
 
-def _is_exact_zero(v: Any) -> bool:
-    if isinstance(v, fmpq):
-        return v == 0
-    if isinstance(v, acb):
-        return v.real.is_zero() and v.imag.is_zero()
-    return isinstance(v, arb) and v.is_zero()
-
-
-def _contains_zero(v: Any) -> bool:
-    if isinstance(v, fmpq):
-        return v == 0
-    return v.contains(0) if isinstance(v, (arb, acb)) else True
-
-
-def _zero_line(ans: Answer, pairs: list) -> str | None:
-    for v, m in pairs:
-        if _is_exact_zero(v):
-            return (f"  {'zero':<11} eigenvalue 0 is exact: nullity {count_text(m)}, share "
-                    f"{share_text(m, ans.order)} of the vertices")
-    if ans.query == "spectrum" and not any(_contains_zero(v) for v, _ in pairs):
+def _zero_line(ans: Answer) -> str | None:
+    m, maybe = ans.zero_atoms()
+    if m is not None:
+        return (f"  {'zero':<11} eigenvalue 0 is exact: nullity {count_text(m)}, share "
+                f"{share_text(m, ans.order)} of the vertices")
+    if ans.query == "spectrum" and not maybe:
         return f"  {'zero':<11} not an eigenvalue (nullity 0): every atom's ball excludes 0"
     return None
 
@@ -136,23 +122,22 @@ def _table(rows, inexact: bool, gap_after: int | None, left_out: int) -> list[st
 
 def atom_lines(ans: Answer, head: int | None = None, full: bool = False) -> list[str]:
     """The atoms section: count line, zero line, then the (possibly shortened) table."""
-    pairs = ans.listed_atoms()
-    n = len(pairs)
+    n = len(ans.atoms)
     lines = [_atoms_line(ans, n)]
-    zero = _zero_line(ans, pairs)
+    zero = _zero_line(ans)
     if zero:
         lines.append(zero)
     gap, left = None, 0
     if head is not None and head < n:
-        shown = pairs[:head]
+        shown = ans.listed_atoms(slice(0, head))  # only the rows shown are converted
         lines.append(f"  {'':<11} showing the first {head} rows (--head {head})")
     elif head is None and not full and n > SUMMARY_AT:
-        shown = pairs[:SUMMARY_ENDS] + pairs[-SUMMARY_ENDS:]
+        shown = ans.listed_atoms(slice(0, SUMMARY_ENDS)) + ans.listed_atoms(slice(-SUMMARY_ENDS, None))
         gap, left = SUMMARY_ENDS - 1, n - 2 * SUMMARY_ENDS
         order = "smallest and largest" if not ans.descending else "largest and smallest"
         lines.append(f"  {'':<11} summary: the {SUMMARY_ENDS} {order} of {n} rows")
     else:
-        shown = pairs
+        shown = ans.listed_atoms()
     rows, inexact = atom_rows(shown)
     lines.append("")
     lines.extend(_table(rows, inexact, gap, left))
