@@ -41,6 +41,7 @@ from flint import arb
 from powerspec.answers.answer import Answer, atom_rows, count_text, value_text
 from powerspec.numbers.counts import BigCount, fraction_of
 from powerspec.numbers.digits import ball_text
+from powerspec.numbers.digits import mean_text as fmt_mean
 
 SUMMARY_AT = 60
 """Spectra with more distinct eigenvalues than this print a summary by default."""
@@ -142,20 +143,6 @@ def atom_lines(ans: Answer, head: int | None = None, full: bool = False) -> list
     lines.append("")
     lines.extend(_table(rows, inexact, gap, left))
     return lines
-
-
-def fmt_mean(mu: float, sd: float) -> str:
-    """A law's mean to six digits of its own size or of the spread, whichever is coarser (a mean of
-    -5.6e-8 beside sigma = 44721 prints as 0).
-
-    >>> fmt_mean(-5.55e-08, 44721.0), fmt_mean(22.2222222, 26.4), fmt_mean(231049060.1866, 1e4)
-    ('0', '22.2222', '231049060.19')
-    """
-    unit = 1e-6 * sd
-    if unit > 0 and abs(mu) < unit:
-        return "0"
-    digits = 6 if not sd > 0 else min(17, max(6, math.ceil(math.log10(abs(mu) / sd)) + 6))
-    return f"{float(mu):.{digits}g}"
 
 
 def law_lines(params: dict, s_text: str | None = None) -> list[str]:

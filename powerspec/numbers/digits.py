@@ -168,6 +168,21 @@ def json_text(text: str) -> tuple[str, bool]:
     return text, v == 0 or mpmath.mpf("1e-300") < v < mpmath.mpf("1e300")
 
 
+def mean_text(mu: float, sd: float) -> str:
+    """A law's mean to six digits of its own size or of the spread, whichever is coarser (a mean of
+    -5.6e-8 beside sigma = 44721 prints as 0): a description of the reference law, not a
+    certified number.
+
+    >>> mean_text(-5.55e-08, 44721.0), mean_text(22.2222222, 26.4), mean_text(231049060.1866, 1e4)
+    ('0', '22.2222', '231049060.19')
+    """
+    unit = 1e-6 * sd
+    if unit > 0 and abs(mu) < unit:
+        return "0"
+    digits = 6 if not sd > 0 else min(17, max(6, math.ceil(math.log10(abs(mu) / sd)) + 6))
+    return f"{float(mu):.{digits}g}"
+
+
 def radius_text(r) -> str:
     """A radius rounded up to two significant digits ("0" for exact values), any size."""
     with mpmath.workprec(64):
@@ -182,4 +197,4 @@ def radius_text(r) -> str:
 
 
 __all__ = ["JSON_INT_DIGITS", "MAX_DIGITS", "ball_text", "int_digits", "int_text",
-           "json_text", "radius_text", "real_text"]
+           "json_text", "mean_text", "radius_text", "real_text"]

@@ -34,6 +34,7 @@ import mpmath
 import numpy as np
 
 from powerspec.errors import NotExactError, SizeLimitError
+from powerspec.numbers.digits import mean_text
 from powerspec.tiers.bracket import AddBracket, MulBracket, plan_cost, spacing
 from powerspec.tiers.lawparity import WINDOW_CAP, ParityWindow, window_points
 from powerspec.tiers.lawproduct import BinomialWindow, ProductLaw
@@ -248,7 +249,8 @@ class AddLaw:
         mix = (f"; mixed over the {len(self.e)} exact atoms of the few-copy operands"
                if exact is not None else "")
         self.method = (
-            f"law: normal limit of the Cartesian power (mean {law.mu:.6g}, variance "
+            f"law: normal limit of the Cartesian power (mean "
+            f"{mean_text(law.mu, math.sqrt(max(law.variance, 0.0)))}, variance "
             f"{law.variance:.6g}, in double precision from the factors' eigenvalues, their rounding "
             f"inside the bounds); bounds: {be}, Chernoff tails and the exact support; "
             f"estimate: Edgeworth in the centre, Lugannani-Rice saddlepoint in the tails{lat} "
