@@ -11,6 +11,7 @@ import json
 import math
 import sys
 
+import mpmath
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -160,3 +161,56 @@ def test_zero_atoms_and_row_slices_match_the_full_listing():
             assert [str(v) for v, _ in ans.listed_atoms(rows)] == [str(v) for v, _ in pairs[rows]]
     top = planner.top("direct(P(3)^3)", 3)                    # listed largest first
     assert top.listed_atoms(slice(0, 2)) == top.listed_atoms()[:2]
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.one_of(st.floats(allow_nan=False, allow_infinity=False, width=64),
+                 st.fractions(max_denominator=10**30),
+                 st.integers(min_value=-10**60, max_value=10**60)))
+def test_bound_texts_are_bounds(x):
+    # source: exact rational arithmetic (Fraction) on the printed text and the value
+    from fractions import Fraction
+
+    from powerspec.answers.answer import bound_text
+    exact = Fraction(x)
+    lo, hi = bound_text(x, -1), bound_text(x, 1)
+    assert Fraction(lo) <= exact <= Fraction(hi)
+    for t in (lo, hi):      # a rounded bound keeps at most 12 (13 after a carry) digits
+        assert Fraction(t) == exact or len(t.lstrip("-").replace(".", "").split("e")[0].strip("0")) <= 13
+
+
+def test_bound_texts_of_balls_and_reports(capsys):
+    from fractions import Fraction
+
+    from flint import arb
+    from flint import ctx as fctx
+
+    from powerspec.answers.answer import bound_text
+    from powerspec.interfaces.cli import main
+    from powerspec.numbers.hp import working
+
+    with working():
+        x = arb(2).sqrt() * 2 + arb(0, 1e-30)
+    with fctx.workprec(300):
+        lo_end, hi_end = (Fraction(str(e.mid().str(90, radius=False))) for e in (x.lower(), x.upper()))
+    assert Fraction(bound_text(x, -1)) <= lo_end and Fraction(bound_text(x, 1)) >= hi_end
+    # source: 2 sqrt 2 is the spectral radius of cart(P(3)^2) (P(3): +-sqrt 2, 0, textbook);
+    # the printed bracket must contain it (it once printed a lower bound above the value)
+    assert main(["invariants", "cart(P(3)^2)"]) == 0
+    line = next(ln for ln in capsys.readouterr().out.splitlines() if "spectral_radius " in ln)
+    lo, hi = line.split("[")[1].split("]")[0].split(", ")
+    with mpmath.workdps(40):
+        r = 2 * mpmath.sqrt(2)
+        assert mpmath.mpf(lo) <= r <= mpmath.mpf(hi)
+    # source: the 0.99-quantile of cart(P(3)^3) is its largest eigenvalue 3 sqrt 2 (textbook);
+    # the exact tier's bounds once rounded back to one double below it
+    assert main(["quantile", "cart(P(3)^3)", "0.99", "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    with mpmath.workdps(40):
+        t = 3 * mpmath.sqrt(2)
+        assert mpmath.mpf(data["lower"]) <= t <= mpmath.mpf(data["upper"])
+    assert main(["quantile", "cart(P(3)^3)", "0.99"]) == 0
+    rows = dict(ln.split(None, 1) for ln in capsys.readouterr().out.splitlines()
+                if ln.strip().startswith(("lower", "upper")))
+    with mpmath.workdps(40):
+        assert mpmath.mpf(rows["lower"]) <= t <= mpmath.mpf(rows["upper"])

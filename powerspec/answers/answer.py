@@ -22,25 +22,33 @@ Number rules (text and JSON alike):
 from __future__ import annotations
 
 import json
-import math
-from collections.abc import Iterable
 from dataclasses import dataclass, field
-from fractions import Fraction
 from typing import Any
 
-import mpmath
 import numpy as np
-from flint import acb, arb, fmpq
+from flint import acb, fmpq
 
-from powerspec.errors import InputError
+from powerspec.answers.notation import (
+    DigitText,
+    RawNumber,
+    atom_rows,
+    bound_text,
+    count_text,
+    count_texts,
+    dump_json,
+    is_number,
+    json_count,
+    json_counts,
+    json_radius,
+    json_value,
+    offset_text,
+    plain_count,
+    value_text,
+)
 from powerspec.numbers.balls import Balls
-from powerspec.numbers.counts import BigCount, to_arb
-from powerspec.numbers.digits import JSON_INT_DIGITS, ball_text, int_text, json_text, radius_text
-from powerspec.numbers.hp import working
 from powerspec.numbers.rationals import Rationals
 from powerspec.spectra.spectrum import Spectrum
 
-TEXT_DIGITS = 40
 """Integers longer than this are abbreviated in the text table (never in JSON)."""
 
 
@@ -79,8 +87,8 @@ class Answer:
             idx = np.arange(len(sp))
             idx = (idx[::-1] if self.descending else idx)[rows]
             sp = Spectrum(sp.values.take(idx), sp.mult[idx], order=sp.order, merged=True)
-            return list(zip(sp.balls(), [_plain(m) for m in sp.mult.tolist()], strict=True))
-        pairs = list(zip(sp.balls(), [_plain(m) for m in sp.mult.tolist()], strict=True))
+            return list(zip(sp.balls(), [plain_count(m) for m in sp.mult.tolist()], strict=True))
+        pairs = list(zip(sp.balls(), [plain_count(m) for m in sp.mult.tolist()], strict=True))
         return pairs[::-1] if self.descending else pairs
 
     def zero_atoms(self) -> tuple[Any, bool]:
@@ -93,13 +101,13 @@ class Answer:
         v = sp.values
         if isinstance(v, Rationals):
             hit = np.flatnonzero(v.num == 0)
-            return (_plain(sp.mult[hit[0]]) if hit.size else None), bool(hit.size)
+            return (plain_count(sp.mult[hit[0]]) if hit.size else None), bool(hit.size)
         if isinstance(v, Balls):
             exact = np.flatnonzero((v.rad == 0) & (v.mid == 0))
             box = np.abs(v.mid.real) <= v.rad
             if v.is_complex:
                 box &= np.abs(v.mid.imag) <= v.rad
-            return (_plain(sp.mult[exact[0]]) if exact.size else None), bool(np.any(box))
+            return (plain_count(sp.mult[exact[0]]) if exact.size else None), bool(np.any(box))
         zero, maybe = None, False
         for x, m in zip(sp.balls(), sp.mult.tolist(), strict=True):
             if isinstance(x, fmpq):
@@ -108,7 +116,7 @@ class Answer:
                 is_zero, holds = x.real.is_zero() and x.imag.is_zero(), x.contains(0)
             else:
                 is_zero, holds = x.is_zero(), x.contains(0)
-            zero = _plain(m) if is_zero else zero
+            zero = plain_count(m) if is_zero else zero
             maybe = maybe or holds
         return zero, maybe
 
@@ -121,7 +129,7 @@ class Answer:
     def multiplicities(self) -> np.ndarray:
         """The atoms' exact multiplicities in listing order (object array of ints / BigCount)."""
         out = np.empty(len(self.atoms), dtype=object)
-        out[:] = [_plain(m) for m in self.atoms.mult.tolist()]
+        out[:] = [plain_count(m) for m in self.atoms.mult.tolist()]
         return out[::-1] if self.descending else out
 
     def radii(self) -> np.ndarray:
@@ -161,7 +169,7 @@ class Answer:
             for (v, _), jm in zip(pairs, json_counts(m for _, m in pairs), strict=True):
                 jv, r = json_value(v)
                 atoms.append([jv, jm])
-                radii.append(_json_radius(r))
+                radii.append(json_radius(r))
             out["atoms"] = atoms
             out["radii"] = radii
         if self.estimate is not None or self.lower is not None:
@@ -175,7 +183,7 @@ class Answer:
                 for name, d in self.invariants.items()}
         out["query"] = self.query
         if self.inputs:
-            out["inputs"] = {k: (json_value(v)[0] if _is_number(v) else v)
+            out["inputs"] = {k: (json_value(v)[0] if is_number(v) else v)
                              for k, v in self.inputs.items()}
         if self.notes:
             out["notes"] = self.notes
@@ -196,8 +204,9 @@ class Answer:
             lines.extend(self._atom_table(head))
         if self.estimate is not None or self.lower is not None:
             lines.append("")
-            for k in ("estimate", "lower", "upper"):
-                lines.append(f"  {k:<11} {value_text(getattr(self, k))}")
+            lines.append(f"  {'estimate':<11} {value_text(self.estimate)}")
+            lines.append(f"  {'lower':<11} {bound_text(self.lower, -1)}")
+            lines.append(f"  {'upper':<11} {bound_text(self.upper, 1)}")
         if self.moments is not None:
             lines.append("")
             lines.append(f"  {'p':>4}  tr(M^p)")
@@ -208,8 +217,8 @@ class Answer:
             for name, d in self.invariants.items():
                 val = value_text(d.get("value"))
                 lo, hi = d.get("lower"), d.get("upper")
-                rng = f"  [{value_text(lo)}, {value_text(hi)}]" if lo is not None or hi is not None \
-                    else ""
+                rng = f"  [{bound_text(lo, -1)}, {bound_text(hi, 1)}]" \
+                    if lo is not None or hi is not None else ""
                 lines.append(f"  {name:<24} {val}{rng}  ({d.get('method', '')})")
         for n in self.notes:
             lines.append(f"  note: {n}")
@@ -236,323 +245,6 @@ class Answer:
         return lines
 
 
-def atom_rows(pairs) -> tuple[list[tuple[str, str, str]], bool]:
-    """(rows of (eigenvalue, radius, multiplicity) texts, True when any radius is not 0).
-
-    An exact integer atom is written like an exact count (rounded leading digits and its
-    length past 40 digits, no digit search); a ball keeps every digit its radius covers.
-
-    >>> atom_rows([(fmpq(4), 1), (fmpq(1, 2), 6)])
-    ([('4', 'exact', '1'), ('0.5', 'exact', '6')], False)
-    """
-    rows, inexact = [], False
-    whole = [isinstance(v, fmpq) and v.q == 1 for v, _ in pairs]
-    # one batch for the integer atoms and one for the multiplicities: one precision switch
-    # each, and equal long counts (palindromic rows) formatted once
-    ints = iter(count_texts(int(v.p) for (v, _), w in zip(pairs, whole, strict=True) if w))
-    mults = count_texts(m for _, m in pairs)
-    for (v, _), w, mt in zip(pairs, whole, mults, strict=True):
-        t, r = (next(ints), 0) if w else offset_text(v)
-        inexact = inexact or r != 0
-        rows.append((t, radius_text(r) if r else "exact", mt))
-    return rows, inexact
-
-
-def offset_text(v: Any) -> tuple[str, Any]:
-    """(text, radius) of a value: :func:`ball_text`, except that a ball that prints as an
-    integer n but provably is not n is written ``n + d`` / ``n - d`` with d's own certified
-    digits (values such as -1 + 10^-32, which the 20-digit cap would print as -1.000...).
-
-    >>> with working():
-    ...     x = arb(-1) + arb(10) ** -32 + arb(0, 1e-45)
-    >>> offset_text(x)[0], offset_text(arb(2.5))[0]
-    ('-1 + 1.000000000000e-32', '2.5')
-    """
-    t, r = ball_text(v)
-    if not r or not isinstance(v, arb):
-        return t, r
-    mant = t.partition("e")[0].lstrip("-")
-    if "e" in t or mant.rstrip("0").rstrip(".") != mant.partition(".")[0]:
-        return t, r                 # not printed as an integer: its digits already tell it apart
-    n = int(t.partition(".")[0])
-    with working():
-        d = v - n                   # exact shift: d's ball has v's radius
-    if d.contains(0):
-        return t, r                 # the ball holds n itself: nothing more to say
-    dt, dr = ball_text(d)
-    sign, body = ("- ", dt[1:]) if dt.startswith("-") else ("+ ", dt)
-    return f"{n} {sign}{body}", dr
-
-
-# ------------------------------------------------------------------ numbers
-class RawNumber(str):
-    """A JSON number literal written verbatim (certified digits, read back by any parser)."""
-
-
-class DigitText(str):
-    """A long exact count's decimal digits: a JSON string that needs no escaping pass."""
-
-
-def _plain(m):
-    return m if isinstance(m, BigCount) else int(m)
-
-
-def _is_number(v) -> bool:
-    return isinstance(v, (int, float, Fraction, mpmath.mpf, BigCount)) and not isinstance(v, bool)
-
-
-def json_count(n: Any) -> Any:
-    """An exact count for JSON: a number up to 4000 digits, else a string (digits or factored)."""
-    if isinstance(n, BigCount):
-        return str(n)
-    t = int_text(int(n))  # one conversion; its length decides number or string
-    return RawNumber(t) if len(t.lstrip("-")) <= JSON_INT_DIGITS else DigitText(t)
-
-
-def json_counts(ns: Iterable[Any]) -> list[Any]:
-    """:func:`json_count` of each count, converting each distinct long integer once.
-
-    Multiplicity rows of powers are often palindromic (binomial rows), so half of the
-    decimal conversions -- the dominant cost of a large ``--json`` -- are repeats.
-
-    >>> json_counts([3, 2**13300, 2**13300])[0], len(json_counts([2**13300] * 2)[1])
-    ('3', 4004)
-    """
-    memo: dict[int, Any] = {}
-    out = []
-    for n in ns:
-        if isinstance(n, BigCount):
-            out.append(str(n))
-            continue
-        n = int(n)
-        if n.bit_length() < 3000:  # under 904 digits: no conversion worth remembering
-            out.append(RawNumber(str(n)))
-            continue
-        t = memo.get(n)
-        if t is None:
-            t = memo[n] = json_count(n)
-        out.append(t)
-    return out
-
-
-def json_value(v: Any) -> tuple[Any, Any]:
-    """(JSON value, radius) of any number powerspec produces; never NaN or Infinity."""
-    if v is None or isinstance(v, (bool, str)):
-        return v, 0
-    if isinstance(v, (int, BigCount)):
-        return json_count(v), 0
-    if isinstance(v, (fmpq, arb, acb)):
-        if isinstance(v, acb) and not v.imag.is_zero():
-            (a, ra), (b, rb) = json_value(v.real), json_value(v.imag)
-            return [a, b], ra + rb
-        x = v.real if isinstance(v, acb) else v
-        if isinstance(x, fmpq) and x.q == 1:
-            return json_count(int(x.p)), 0
-        text, r = ball_text(x)
-        t, is_num = json_text(text)
-        return (RawNumber(t) if is_num else t), r
-    if isinstance(v, complex) or isinstance(v, mpmath.mpc):
-        return [json_value(v.real)[0], json_value(v.imag)[0]], 0
-    if isinstance(v, Fraction):
-        return json_value(fmpq(v.numerator, v.denominator))
-    if isinstance(v, float):
-        if not math.isfinite(v):
-            raise InputError("internal: a non-finite number reached the output")
-        return v, 0
-    if isinstance(v, mpmath.mpf):
-        if not mpmath.isfinite(v):
-            raise InputError("internal: a non-finite number reached the output")
-        return json_value(_mpf_exact(v))
-    if hasattr(v, "__float__"):
-        return json_value(float(v))
-    return str(v), 0
-
-
-def _mpf_exact(v: mpmath.mpf) -> fmpq | arb:
-    man, exp = v.man_exp
-    man, exp = int(man), int(exp)
-    if abs(exp) < 4096:
-        return fmpq(man * 2 ** max(exp, 0), 2 ** max(-exp, 0))
-    with working():
-        return arb(man) * arb(2) ** exp
-
-
-def _json_radius(r) -> Any:
-    if not r:
-        return 0
-    t = radius_text(r)
-    t2, is_num = json_text(t)
-    return RawNumber(t2) if is_num else t2
-
-
-def dump_json(obj: Any, end: str = "") -> str:
-    """JSON text for dicts, lists, str, int, float, bool, None and RawNumber (then ``end``).
-
-    The text is assembled from a flat list of pieces joined once, so the long digit
-    strings of exact counts are copied once, not once per nesting level.
-
-    >>> dump_json({"a": [1, 2.5, RawNumber("1.25")], "b": DigitText("12")})
-    '{"a": [1, 2.5, 1.25], "b": "12"}'
-    """
-    parts: list[str] = []
-    _emit(obj, parts)
-    parts.append(end)  # here, not by the caller: a str of hundreds of MB is not copied again
-    return "".join(parts)
-
-
-def _emit(obj: Any, out: list[str]) -> None:
-    """Append the JSON pieces of ``obj`` to ``out``."""
-    if isinstance(obj, RawNumber):
-        out.append(obj)
-    elif isinstance(obj, DigitText):  # digits only: nothing to escape, so no pass over them
-        out += ('"', obj, '"')
-    elif isinstance(obj, BigCount):
-        out.append(json.dumps(str(obj)))
-    elif isinstance(obj, bool) or obj is None:
-        out.append(json.dumps(obj))
-    elif isinstance(obj, int):
-        _emit(json_count(obj), out)
-    elif isinstance(obj, float):
-        if not math.isfinite(obj):
-            raise InputError("internal: a non-finite number reached the output")
-        out.append(json.dumps(obj))
-    elif isinstance(obj, str):
-        out.append(json.dumps(obj))
-    elif isinstance(obj, dict):
-        out.append("{")
-        for i, (k, v) in enumerate(obj.items()):
-            out += (", " if i else "", json.dumps(str(k)), ": ")
-            _emit(v, out)
-        out.append("}")
-    elif isinstance(obj, (list, tuple)):
-        out.append("[")
-        for i, v in enumerate(obj):
-            if i:
-                out.append(", ")
-            _emit(v, out)
-        out.append("]")
-    else:
-        _emit(json_value(obj)[0], out)
-
-
-def count_text(n: Any) -> str:
-    """An exact count for text: in full up to 40 digits, else 12 leading digits and the length.
-
-    The leading digits are the count rounded to 12 significant digits (decided in
-    ball arithmetic on the top 192 bits, exactly when a ball cannot decide them);
-    the digit count is exact.  A factored count (BigCount) prints its exact form
-    while that is short (``--json`` always keeps the exact form).
-
-    >>> count_text(2**64), count_text(10**50 - 1)
-    ('18446744073709551616', '1.00000000000e+50 (an integer of 50 digits)')
-    >>> count_text(BigCount.power(3, 10**6) - BigCount.power(2, 10**6))
-    '3^1000000 - 2^1000000'
-    >>> count_text(BigCount.power(3, 10**6) - 2**(10**6))    # 3^k - 2^k, 2^k written out
-    '1.79771011668e+477121 (an integer of 477122 digits)'
-    """
-    with working():
-        return _count_text(n, None)
-
-
-def count_texts(ns: Iterable[Any]) -> list[str]:
-    """:func:`count_text` of each count, in one pass: one precision switch for all, and the
-    leading digits of equal long counts decided once (the same text, by the same rule).
-
-    >>> count_texts([7, 10**50 - 1, 10**50 - 1])[1:] == [count_text(10**50 - 1)] * 2
-    True
-    """
-    memo: dict[tuple[int, int], str] = {}
-    short = int(3.32 * TEXT_DIGITS)
-    with working():
-        # short ints (most rows' values) skip the call: this loop runs once per table row
-        return [str(n) if type(n) is int and n.bit_length() <= short else _count_text(n, memo)
-                for n in ns]
-
-
-with working():
-    _LN10 = arb(10).log()
-    _INV_LN10 = 1 / _LN10
-    _LOG10_2 = arb(2).log() * _INV_LN10
-_UNIT = arb("0.5", "0.5")  # [0, 1]: what the dropped low bits add to the top bits
-_HALF = arb("0.5")
-
-
-def _count_text(n: Any, memo: dict | None) -> str:
-    """count_text inside :func:`working`; ``memo`` keeps texts keyed by the bits that decide them."""
-    if isinstance(n, BigCount):
-        exact = str(n)
-        if len(exact) <= TEXT_DIGITS:
-            return exact
-        return _leading_text(to_arb(n).log() * _INV_LN10, None)[0]
-    n = int(n)
-    if n.bit_length() <= 3.32 * TEXT_DIGITS:
-        return str(n)
-    sign = "-" if n < 0 else ""
-    n = abs(n)
-    bits = n.bit_length()
-    shift = max(0, bits - 192)  # the top 192 bits decide 12 digits by far
-    top = n >> shift
-    # the ball below is a function of (bits, top) alone, so a text it decided is the text
-    # of every count with the same key
-    key = (bits, top)
-    if memo is not None and key in memo:
-        return sign + memo[key]
-    # n / 2^shift lies in [top, top + 1]
-    lg = ((arb(top) + _UNIT).log() * _INV_LN10 + shift * _LOG10_2 if shift
-          else arb(n).log() * _INV_LN10)
-    text, decided = _leading_text(lg, n)
-    if memo is not None and decided:
-        memo[key] = text
-    return sign + text
-
-
-def _leading_text(lg: arb, exact: int | None) -> tuple[str, bool]:
-    """('d.ddddddddddde+E (an integer of D digits)', decided by the ball) from a ball around
-    log10 of a count (call inside :func:`working`).
-
-    ``exact`` is the count itself when known: used when the ball cannot decide the
-    digit count or the rounding of the 12th digit.
-    """
-    q = None
-    e = lg.floor().unique_fmpz()
-    if e is not None:  # 10^(frac + 11) = exp((lg - e + 11) ln 10): the 12 digits before rounding
-        q = (((lg - int(e) + 11) * _LN10).exp() + _HALF).floor().unique_fmpz()
-    decided = e is not None and q is not None
-    if not decided:
-        if exact is None:  # no exact form at hand: the length range, which the ball decides
-            lo, hi = (int(b.floor().unique_fmpz()) for b in (lg.lower(), lg.upper()))
-            return f"an integer of {lo + 1} to {hi + 1} digits (exact form in --json)", False
-        t = int_text(exact)
-        e, q = len(t) - 1, (int(t[:13]) + 5) // 10  # round half up at the 12th digit
-    e, q = int(e), int(q)
-    digits = e + 1
-    if q >= 10**12:  # 9.99...95 rounds up to 10.0...: the exponent moves, the length does not
-        q, e = q // 10, e + 1
-    t = str(q)
-    return f"{t[0]}.{t[1:]}e+{e} (an integer of {digits} digits)", decided
-
-
-def value_text(v: Any) -> str:
-    """Any number powerspec produces as certified text ("-" for None)."""
-    if v is None:
-        return "-"
-    if isinstance(v, (int, BigCount)) and not isinstance(v, bool):
-        return count_text(v)
-    if isinstance(v, (fmpq, arb, acb)):
-        return ball_text(v)[0]
-    if isinstance(v, Fraction):
-        return ball_text(fmpq(v.numerator, v.denominator))[0]
-    if isinstance(v, float):
-        return f"{v:.12g}"
-    if isinstance(v, complex):
-        return f"{v.real:.12g}{v.imag:+.12g}i"
-    if isinstance(v, mpmath.mpf):
-        return ball_text(_mpf_exact(v))[0]
-    if isinstance(v, mpmath.mpc):
-        return mpmath.nstr(v, 12)
-    return str(v)
-
-
 def _vertices(n) -> str:
     return f"{count_text(n)} vertex" if n == 1 else f"{count_text(n)} vertices"
 
@@ -565,5 +257,5 @@ def _eigenvalues(n) -> str:
 _text_int = count_text
 _text_value = value_text
 
-__all__ = ["Answer", "DigitText", "RawNumber", "count_text", "count_texts", "dump_json", "json_count",
-           "json_counts", "json_value", "offset_text", "value_text"]
+__all__ = ["Answer", "DigitText", "RawNumber", "atom_rows", "bound_text", "count_text", "count_texts",
+           "dump_json", "json_count", "json_counts", "json_value", "offset_text", "value_text"]

@@ -38,7 +38,7 @@ from typing import Any
 
 from flint import arb
 
-from powerspec.answers.answer import Answer, atom_rows, count_text, value_text
+from powerspec.answers.answer import Answer, atom_rows, bound_text, count_text, value_text
 from powerspec.numbers.counts import BigCount, fraction_of
 from powerspec.numbers.digits import ball_text
 from powerspec.numbers.digits import mean_text as fmt_mean
@@ -182,8 +182,9 @@ def answer_text(ans: Answer, *, head: int | None = None, full: bool = False,
             lines.append(f"  {'tier':<11} {tier}")
         lines.extend(law_lines(law or {}, s_text))
         lines.append("")
-        for k in ("estimate", "lower", "upper"):
-            lines.append(f"  {k:<11} {value_text(getattr(ans, k))}")
+        lines.append(f"  {'estimate':<11} {value_text(ans.estimate)}")
+        lines.append(f"  {'lower':<11} {bound_text(ans.lower, -1)}")  # rounded down: still a bound
+        lines.append(f"  {'upper':<11} {bound_text(ans.upper, 1)}")
     if ans.moments is not None:
         per_vertex = bool(ans.inputs.get("per_vertex"))
         lines.append("")
@@ -194,7 +195,7 @@ def answer_text(ans: Answer, *, head: int | None = None, full: bool = False,
         w = max([24] + [len(name) for name in ans.invariants])
         for name, d in ans.invariants.items():
             lo, hi = d.get("lower"), d.get("upper")
-            rng = f"  [{value_text(lo)}, {value_text(hi)}]" if lo is not None or hi is not None \
+            rng = f"  [{bound_text(lo, -1)}, {bound_text(hi, 1)}]" if lo is not None or hi is not None \
                 else ""
             lines.append(f"  {name:<{w}} {value_text(d.get('value'))}{rng}  ({d.get('method', '')})")
     lines.extend(f"  note: {n}" for n in ans.notes)

@@ -34,7 +34,7 @@ from flint import acb, arb
 
 from powerspec.algebra import limits
 from powerspec.algebra.grammar import FUNCTIONS
-from powerspec.answers.answer import dump_json, json_value, value_text
+from powerspec.answers.answer import bound_text, dump_json, json_value, value_text
 from powerspec.errors import ExpressionError, InputError, PowerspecError
 from powerspec.queries import planner
 from powerspec.queries.invariants import invariants
@@ -117,7 +117,7 @@ class Sweep:
                 groups.append(key)
                 first[key] = p.method
             alike[key] = alike.get(key, 0) + 1
-            rows.append((p.text, cell(p.value), cell(p.lower), cell(p.upper),
+            rows.append((p.text, cell(p.value), cell(p.lower, -1), cell(p.upper, 1),
                          f"[{groups.index(key) + 1}]"))
         head = (self.parameter, "value", "lower", "upper", "method")
         widths = [max(len(r[i]) for r in [head, *rows]) for i in range(4)]
@@ -135,12 +135,15 @@ class Sweep:
         return "\n".join(lines) + "\n"
 
 
-def cell(v: Any) -> str:
-    """A number for a table cell: certified text, long integers by their leading digits.
+def cell(v: Any, side: int = 0) -> str:
+    """A number for a table cell: certified text, long integers by their leading digits; a lower
+    (``side`` -1) or upper (+1) bound rounded outward, so the cell is itself a bound.
 
-    >>> cell(2**1000), cell(0.5), cell(None)
-    ('1.07150860719e+301', '0.5', '-')
+    >>> cell(2**1000), cell(0.5), cell(None), cell(2**1000, -1)   # 2^1000 = 1.0715086071862...e301
+    ('1.07150860719e+301', '0.5', '-', '1.07150860718e+301')
     """
+    if side:
+        return bound_text(v, side)
     t = value_text(v)
     digits = t.lstrip("-")
     if len(digits) > 24 and digits.isdigit():

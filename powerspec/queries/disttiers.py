@@ -135,12 +135,18 @@ class ExactTier:
         v = float(self.atoms.values[i])
         r = float(self.atoms.radius[i])
         if math.isfinite(v) and math.isfinite(r):
-            return v + side * r
+            if side == 0 or r == 0:  # radius 0: the double is the value itself
+                return v
+            # v -+ r rounds to nearest (back to v itself when r < ulp(v)/2): step outward
+            return math.nextafter(v + side * r, side * math.inf)
         big = self.atoms.value_of(i) if self.atoms.value_of is not None else v
         if not isinstance(big, mpmath.mpf):
             big = mpmath.mpf(big)
         rel = float(self.atoms.rel[i]) if self.atoms.rel is not None else 1e-10
-        return big + side * abs(big) * mpmath.mpf(rel)
+        if side == 0:
+            return big
+        # two roundings to nearest of relative size 2^-53 each: widened by 2^-50 of |big|
+        return big + side * abs(big) * (mpmath.mpf(rel) + mpmath.mpf(2) ** -50)
 
     def quantile(self, q: Fraction):
         """(estimate, lower, upper) of inf{x : F(x) >= q} for an exact rational q.
