@@ -84,3 +84,36 @@ def test_mix_coefficients_written_as_fractions_are_exact():
         truth = -3 + 3 * (1 - mpmath.sqrt(2) / 3) ** 80
         lo, hi = (mpmath.mpf(x.mid().str(80, radius=False)) for x in (low.lower(), low.upper()))
     assert lo <= truth <= hi and hi - lo < mpmath.mpf("1e-40")
+
+
+def test_tiny_weights_keep_their_digits():
+    # source: as above, strong(scale(e, P(3))^4) has the eigenvalues
+    # (1 + e sqrt 2)^a (1 - e sqrt 2)^c - 1, a + b + c = 4, multiplicity 4!/(a! b! c!), here with
+    # e = 1e-60 (mpmath at 300 digits).  At a fixed 160 bits 1 + e sqrt 2 is 1 and every digit
+    # was lost (one atom 0 +- 6e-48 holding all 81); the 9 first-order values e sqrt 2 (a - c)
+    # must come apart, each atom holding exactly its candidates
+    k = 4
+    ans = planner.spectrum(f"strong(scale(1e-60, P(3))^{k})")
+    with mpmath.workdps(300):
+        e = mpmath.mpf("1e-60")
+        ref = []
+        for a in range(k + 1):
+            for c in range(k + 1 - a):
+                m = math.factorial(k) // (math.factorial(a) * math.factorial(k - a - c)
+                                          * math.factorial(c))
+                ref.append(((1 + e * mpmath.sqrt(2)) ** a * (1 - e * mpmath.sqrt(2)) ** c - 1, m))
+    atoms = []
+    with mpmath.workdps(300), ctx.workprec(1000):
+        for v, m in ans.listed_atoms():
+            if isinstance(v, fmpq):
+                lo = hi = mpmath.mpf(int(v.p)) / int(v.q)
+            else:
+                lo, hi = (mpmath.mpf(x.mid().str(250, radius=False)) for x in (v.lower(), v.upper()))
+                lo, hi = lo - abs(lo) * mpmath.mpf(10) ** -240, hi + abs(hi) * mpmath.mpf(10) ** -240
+            atoms.append([lo, hi, int(m), 0])
+        for value, m in ref:
+            hits = [a for a in atoms if a[0] <= value <= a[1]]
+            assert len(hits) == 1, value
+            hits[0][3] += m
+    assert [a[2] for a in atoms] == [a[3] for a in atoms]
+    assert len(atoms) == 9

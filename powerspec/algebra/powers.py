@@ -25,15 +25,15 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from flint import fmpq
+from flint import acb, arb, fmpq
 
 from powerspec.algebra.kinds import Combination
 from powerspec.algebra.rules import apply, pairs, scale_shift, self_power, tighter, unify
 from powerspec.errors import SizeLimitError
 from powerspec.numbers.balls import Balls
-from powerspec.numbers.convert import rationals_to_balls, to_balls
+from powerspec.numbers.convert import hp_of, rationals_to_balls, to_balls
 from powerspec.numbers.counts import EXPAND_BITS, bit_length, power_product
-from powerspec.numbers.hp import HP, working
+from powerspec.numbers.hp import HP, PREC, working
 from powerspec.numbers.rationals import Rationals
 from powerspec.spectra.spectrum import Spectrum, mult_array
 
@@ -138,19 +138,50 @@ def hp_self_power(comb: Combination, x: HP, c: int) -> HP:
     Cartesian c x; a = 0: b^(c-1) x^c; a = 1: ((1 + b x)^c - 1)/b, where the
     subtraction of 1 is done at 160 bits, far below the values' own radii.
 
-    >>> from flint import fmpq
+    >>> from flint import acb, arb, fmpq
     >>> from powerspec.algebra.kinds import STRONG
     >>> hp_self_power(STRONG, fmpq(2), 3)
     26
     """
     a, b = comb.a, comb.b
-    with working():
+    bq = fmpq(b.numerator, b.denominator)
+    with working(linear_prec(bq, [x]) if a == 1 and b != 0 else PREC):
         if comb.mode == "add":
             return x * c
-        bq = fmpq(b.numerator, b.denominator)
         if a == 0:
             return (bq * x) ** c / bq if c else 1 / bq
         return ((1 + bq * x) ** c - 1) / bq
+
+
+MAX_EXTRA_BITS = 8192
+"""Most bits added to the working precision to keep b x beside 1 in (1 + b x)^c - 1."""
+
+
+def linear_prec(bq: fmpq, xs) -> int:
+    """The working precision at which 1 + b x keeps :data:`PREC` bits of every b x.
+
+    At 160 bits, 1 + 10^-100 is 1 and ((1 + b x)^c - 1)/b loses every digit (a ball of radius
+    2^-160/b); the bits below 1 that b x needs are added, up to :data:`MAX_EXTRA_BITS`.
+
+    >>> linear_prec(fmpq(1), [fmpq(1, 2**300)]) - PREC
+    332
+    """
+    extra = 0
+    with working():
+        for x in xs:
+            y = bq * x
+            if isinstance(y, fmpq):
+                if y == 0:
+                    continue
+                bits = int(y.p).bit_length() - int(y.q).bit_length()
+            else:
+                m = (y.real if isinstance(y, acb) else y).mid()
+                if m == 0:
+                    continue
+                man, exp = m.man_exp()
+                bits = int(exp) + int(man).bit_length()
+            extra = max(extra, -bits)
+    return PREC + min(extra, MAX_EXTRA_BITS) + 32
 
 
 def fold(parts: list[Spectrum], comb: Combination, budget: int, limit: int) -> Spectrum:
@@ -226,7 +257,8 @@ class _Linear:
         r = len(s)
         bq = fmpq(comb.b.numerator, comb.b.denominator)
         if s.hp is not None and composition_count(k, r) <= HP_CANDIDATES:
-            with working():
+            self.prec = linear_prec(bq, s.hp)  # 1 + b x must keep b x when it is tiny
+            with working(self.prec):
                 self.hp = [[(1 + bq * x) ** c for c in range(k + 1)] for x in s.hp]
             self.bq = bq
         elif s.hp is not None and r * (k + 1) <= HP_POWERS:
@@ -243,7 +275,7 @@ class _Linear:
             return acc
         if self.hp is not None:
             pw = self.hp[i]
-            with working():
+            with working(self.prec):
                 if self.acc is None:
                     self.acc = [pw[j] for j in c.tolist()]
                 else:
@@ -257,12 +289,19 @@ class _Linear:
         self.acc = tighter(lin, scale_shift(x, 1, self.b))
         return x
 
-    def hp_values(self) -> list[HP] | None:
-        """The candidates (s - 1)/b at 160 bits, when the chain ran there."""
+    def hp_values(self, acc) -> list[HP] | None:
+        """The candidates (s - 1)/b at high precision, when the chain ran there; where the double
+        ball chain ``acc`` (x + y + bxy) is tighter -- b x beyond the precision added -- that ball."""
         if self.hp is None:
             return None
-        with working():
-            return [(v - 1) / self.bq for v in self.acc]
+        with working(self.prec):
+            out = [(v - 1) / self.bq for v in self.acc]
+            if isinstance(acc, Balls) and not acc.is_complex:
+                for i, v in enumerate(out):
+                    d = hp_of(acc, i)
+                    if isinstance(v, arb) and isinstance(d, arb) and d.rad() < v.rad():
+                        out[i] = d
+        return out
 
 
 def _compositions(s: Spectrum, k: int, comb: Combination) -> Spectrum:
@@ -319,7 +358,7 @@ def _compositions(s: Spectrum, k: int, comb: Combination) -> Spectrum:
         acc = lin.step(acc, i, c, None if i == r - 1 or i == 0 else src)
     if isinstance(acc, Rationals) and acc.wider_than(4096):
         acc = rationals_to_balls(acc)
-    hp = lin.hp_values()
+    hp = lin.hp_values(acc)
     if hp is not None:
         return Spectrum.from_hp(hp, w, keep=HP_CANDIDATES)
     return Spectrum(acc, w, order=order)
