@@ -117,3 +117,38 @@ def test_tiny_weights_keep_their_digits():
             hits[0][3] += m
     assert [a[2] for a in atoms] == [a[3] for a in atoms]
     assert len(atoms) == 9
+
+
+def test_a_third_as_mix_coefficient_in_the_laplacian():
+    # source: mpmath (50 digits) on the explicitly built Laplacian of mix(1, 1/3, K(1,3)^2):
+    # A = A1 (x) I + I (x) A1 + (1/3) A1 (x) A1 with the third exact, L = diag(A 1) - A.  The
+    # symmetry tier takes its coefficients as doubles and must decline a third
+    ans = planner.spectrum("mix(1, 1/3, K(1, 3)^2)", "laplacian")
+    assert "symmetry" not in ans.method
+    with mpmath.workdps(50):
+        a1 = mpmath.matrix(4, 4)
+        for j in (1, 2, 3):
+            a1[0, j] = a1[j, 0] = 1
+        n = 16
+        a = mpmath.matrix(n, n)
+        for i in range(n):
+            for j in range(n):
+                i1, i2, j1, j2 = divmod(i, 4) + divmod(j, 4)
+                a[i, j] = (a1[i1, j1] * (i2 == j2) + (i1 == j1) * a1[i2, j2]
+                           + mpmath.mpf(1) / 3 * a1[i1, j1] * a1[i2, j2])
+        lap = mpmath.matrix(n, n)
+        for i in range(n):
+            lap[i, i] = sum(a[i, j] for j in range(n))
+            for j in range(n):
+                lap[i, j] -= a[i, j]
+        ev = mpmath.eigsy(lap, eigvals_only=True)
+        counts = []
+        with ctx.workprec(300):
+            for v, m in ans.listed_atoms():
+                if isinstance(v, fmpq):
+                    lo = hi = mpmath.mpf(int(v.p)) / int(v.q)
+                else:
+                    lo, hi = (mpmath.mpf(x.mid().str(60, radius=False)) for x in (v.lower(), v.upper()))
+                counts.append((sum(1 for e in ev if lo - mpmath.mpf(10) ** -40 <= e
+                                   <= hi + mpmath.mpf(10) ** -40), int(m)))
+    assert all(c >= m for c, m in counts) and sum(m for _, m in counts) == 16

@@ -42,6 +42,8 @@ def _fold_float(node: Node, direction: str) -> tuple[np.ndarray, np.ndarray, int
         f = node.factor
         return f.adjacency.toarray(), np.array([float(d) for d in f.exact_degrees(direction)]), 1
     a, b = float(node.comb.a), float(node.comb.b)
+    # a coefficient that is not a double (a third) is one more relative rounding per fold
+    coef = sum(Fraction(float(c)) != c for c in (node.comb.a, node.comb.b))
     acc = None
     depth = 0
     for child, k in node.operands:
@@ -54,7 +56,7 @@ def _fold_float(node: Node, direction: str) -> tuple[np.ndarray, np.ndarray, int
             i1, i2 = np.eye(n1), np.eye(n2)
             acc = a * (np.kron(acc, i2) + np.kron(i1, x)) + b * np.kron(acc, x)
             dacc = a * (np.add.outer(dacc, dx).ravel()) + b * np.multiply.outer(dacc, dx).ravel()
-            depth = depth + dep + 3
+            depth = depth + dep + 3 + coef
     return acc, dacc, depth
 
 
