@@ -214,3 +214,33 @@ def test_bound_texts_of_balls_and_reports(capsys):
                 if ln.strip().startswith(("lower", "upper")))
     with mpmath.workdps(40):
         assert mpmath.mpf(rows["lower"]) <= t <= mpmath.mpf(rows["upper"])
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.integers(min_value=-10**6, max_value=10**6).filter(bool),
+       st.integers(min_value=13, max_value=40), st.integers(min_value=1, max_value=9), st.booleans())
+def test_offset_texts_next_to_integers(n, e, digit, below):
+    # source: exact rationals (Fraction) on the printed "n +- d" text: it must lie within the
+    # stated radius of the ball, and name the integer n it sits next to
+    from fractions import Fraction
+
+    from flint import arb
+    from flint import ctx as fctx
+
+    from powerspec.answers.answer import offset_text
+    from powerspec.numbers.hp import working
+
+    delta = Fraction(digit, 10**e) * (-1 if below else 1)
+    with working():
+        x = arb(n) + arb(delta.numerator) / arb(delta.denominator) + arb(0, 10.0 ** -(e + 8))
+    text, r = offset_text(x)
+    if x.contains(n):           # 160 bits cannot separate x from n: the plain text is kept
+        return
+    head, sign, d = text.split(" ")
+    assert int(head) == n and sign == ("-" if below else "+")
+    printed = n + (Fraction(d) if sign == "+" else -Fraction(d))
+    with fctx.workprec(600):
+        lo, hi = (Fraction(str(t.mid().str(200, radius=False))) for t in (x.lower(), x.upper()))
+    man, ex = mpmath.mpf(r).man_exp
+    rad = Fraction(int(man)) * Fraction(2) ** int(ex)
+    assert printed - rad <= lo and hi <= printed + rad

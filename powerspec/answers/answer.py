@@ -104,9 +104,9 @@ class Answer:
             return (plain_count(sp.mult[hit[0]]) if hit.size else None), bool(hit.size)
         if isinstance(v, Balls):
             exact = np.flatnonzero((v.rad == 0) & (v.mid == 0))
-            box = np.abs(v.mid.real) <= v.rad
+            box = ~(np.abs(v.mid.real) > v.rad)  # written so that a NaN counts as "may hold 0"
             if v.is_complex:
-                box &= np.abs(v.mid.imag) <= v.rad
+                box &= ~(np.abs(v.mid.imag) > v.rad)
             return (plain_count(sp.mult[exact[0]]) if exact.size else None), bool(np.any(box))
         zero, maybe = None, False
         for x, m in zip(sp.balls(), sp.mult.tolist(), strict=True):

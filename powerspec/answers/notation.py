@@ -54,26 +54,30 @@ def atom_rows(pairs) -> tuple[list[tuple[str, str, str]], bool]:
 
 
 def offset_text(v: Any) -> tuple[str, Any]:
-    """(text, radius) of a value: :func:`ball_text`, except that a ball that prints as an
-    integer n but provably is not n is written ``n + d`` / ``n - d`` with d's own certified
-    digits (values such as -1 + 10^-32, which the 20-digit cap would print as -1.000...).
+    """(text, radius) of a value: :func:`ball_text`, except that a ball within 10^-12 (relative)
+    of a non-zero integer n of at most 15 digits that provably is not n is written ``n + d`` /
+    ``n - d``
+    with d's own certified digits: -1 + 10^-32 and -1 + 5e-21, which the 20-digit cap prints as
+    -1.000... and -0.999..., stay apart from their neighbours.
 
     >>> with working():
     ...     x = arb(-1) + arb(10) ** -32 + arb(0, 1e-45)
-    >>> offset_text(x)[0], offset_text(arb(2.5))[0]
-    ('-1 + 1.000000000000e-32', '2.5')
+    ...     y = arb(-1) + arb(5) * arb(10) ** -21 + arb(0, 1e-40)
+    >>> offset_text(x)[0], offset_text(y)[0], offset_text(arb(2.5))[0]
+    ('-1 + 1.000000000000e-32', '-1 + 5.000000000000000000e-21', '2.5')
     """
     t, r = ball_text(v)
-    if not r or not isinstance(v, arb):
+    if not r or not isinstance(v, arb) or not v.is_finite():
         return t, r
-    mant = t.partition("e")[0].lstrip("-")
-    if "e" in t or mant.rstrip("0").rstrip(".") != mant.partition(".")[0]:
-        return t, r                 # not printed as an integer: its digits already tell it apart
-    n = int(t.partition(".")[0])
     with working():
+        n = (v.mid() + arb("0.5")).floor().unique_fmpz()  # the integer nearest the midpoint
+        if n is None or int(n) == 0 or abs(int(n)) >= 10**15:
+            return t, r             # next to 0 the value's own digits already show it
+        n = int(n)
         d = v - n                   # exact shift: d's ball has v's radius
-    if d.contains(0):
-        return t, r                 # the ball holds n itself: nothing more to say
+        near = bool(abs(d) < arb(10) ** -12 * max(1, abs(n)))
+    if not near or d.contains(0):
+        return t, r                 # far from n (its digits tell it apart), or may be n itself
     dt, dr = ball_text(d)
     sign, body = ("- ", dt[1:]) if dt.startswith("-") else ("+ ", dt)
     return f"{n} {sign}{body}", dr
