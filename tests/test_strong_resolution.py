@@ -152,3 +152,21 @@ def test_a_third_as_mix_coefficient_in_the_laplacian():
                 counts.append((sum(1 for e in ev if lo - mpmath.mpf(10) ** -40 <= e
                                    <= hi + mpmath.mpf(10) ** -40), int(m)))
     assert all(c >= m for c, m in counts) and sum(m for _, m in counts) == 16
+
+
+def test_api_and_expression_read_a_decimal_coefficient_alike():
+    from fractions import Fraction
+
+    import powerspec as ps
+    # the written 0.1 is 1/10 in both (its shortest repr), as quantile levels are read
+    node = ps.mix(1, 0.1, (ps.P(3), 20))
+    assert node.comb.b == Fraction(1, 10)
+    a = ps.top(node, 2).listed_atoms()
+    b = ps.top("mix(1, 0.1, P(3)^20)", 2).listed_atoms()
+    assert [(str(x), m) for x, m in a] == [(str(x), m) for x, m in b]
+    # source: the largest eigenvalue is 20 o-fold of sqrt 2 under x o y = x + y + xy/10, i.e.
+    # 10 ((1 + sqrt 2 / 10)^20 - 1) (mpmath, 80 digits)
+    with mpmath.workdps(80), ctx.workprec(400):
+        t = 10 * ((1 + mpmath.sqrt(2) / 10) ** 20 - 1)
+        lo, hi = (mpmath.mpf(e.mid().str(90, radius=False)) for e in (a[0][0].lower(), a[0][0].upper()))
+    assert lo <= t <= hi

@@ -24,6 +24,8 @@ import operator
 from fractions import Fraction
 from typing import Any
 
+import numpy as np
+
 from powerspec.algebra.grammar import parse
 from powerspec.algebra.kinds import PRODUCT_KINDS, Combination
 from powerspec.algebra.tree import Leaf, Node, Product
@@ -137,10 +139,17 @@ def mix(a: Any, b: Any, *operands: Any) -> Node:
 
 
 def _coefficient(x: Any) -> Fraction:
+    """A mix coefficient as the exact rational written: a float by its shortest decimal
+    representation (0.1 is 1/10, as in an expression string), so the API and the command line
+    compute the same product.
+
+    >>> _coefficient(0.1), _coefficient(Fraction(1, 3)), _coefficient(2)
+    (Fraction(1, 10), Fraction(1, 3), Fraction(2, 1))
+    """
     if isinstance(x, bool):
         raise InputError(f"a mix coefficient must be a number, got {x!r}")
     try:
-        q = Fraction(x)
+        q = Fraction(repr(float(x))) if isinstance(x, (float, np.floating)) else Fraction(x)
     except (TypeError, ValueError):
         raise InputError(f"a mix coefficient must be a finite number, got {x!r}") from None
     if abs(q) > Fraction(10) ** 300:
