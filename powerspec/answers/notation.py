@@ -390,9 +390,13 @@ def bound_text(v: Any, side: int) -> str:
         y = end * arb(10) ** (11 - e)  # a ball around end * 10^(11 - e)
         q = int((y.lower().floor() if side < 0 else y.upper().ceil()).unique_fmpz())
     # q 10^(e - 11) <= end (lower) or >= end (upper): the printed number is a bound
-    d = Decimal(q).scaleb(e - 11)
-    out = f"{d:.12g}" if len(str(abs(q))) <= 12 else f"{d:.13g}"
-    return out
+    digits = str(abs(q))
+    lead = e - 11 + len(digits) - 1            # the exponent of q 10^(e - 11)'s leading digit
+    sign = "-" if q < 0 else ""
+    if -5 <= lead < 12:                        # fixed point, as value_text writes such numbers
+        return f"{Decimal(q).scaleb(e - 11).normalize():f}"
+    frac = digits[1:].rstrip("0")              # scientific, exponent of any size (no Decimal context)
+    return f"{sign}{digits[0]}{'.' + frac if frac else ''}e{lead:+d}"
 
 
 def _as_fraction(v: Any) -> Fraction | None:
