@@ -244,3 +244,22 @@ def test_offset_texts_next_to_integers(n, e, digit, below):
     man, ex = mpmath.mpf(r).man_exp
     rad = Fraction(int(man)) * Fraction(2) ** int(ex)
     assert printed - rad <= lo and hi <= printed + rad
+
+
+def test_bound_texts_beyond_every_decimal_context():
+    # source: Arb ball arithmetic (python-flint): the printed bound, rebuilt as a ball from its
+    # digits, must lie on the right side of the value's ball
+    from fractions import Fraction
+
+    from flint import arb, fmpq
+
+    from powerspec.answers.answer import bound_text
+    from powerspec.numbers.hp import working
+
+    with working(256):
+        for x in (arb(10) ** (10**9) * 3, arb(2) ** (-(10**8)), -(arb(7) ** 123456789)):
+            for side in (-1, 1):
+                mant, _, exp = bound_text(x, side).partition("e")
+                f = Fraction(mant)
+                t = arb(fmpq(f.numerator, f.denominator)) * arb(10) ** int(exp)
+                assert (t.upper() <= x.lower()) if side < 0 else (t.lower() >= x.upper())
