@@ -228,12 +228,13 @@ def _inverse_iteration(r: np.ndarray, steps: int = 3) -> np.ndarray:
     """The lowest eigenvector of R^T R, approximately (a few solves with the Cholesky factor)."""
     x = np.random.default_rng(12345).standard_normal(r.shape[0])
     for _ in range(steps):
-        x = scipy.linalg.solve_triangular(r, x, trans="T", lower=False, check_finite=False)
-        x = scipy.linalg.solve_triangular(r, x, lower=False, check_finite=False)
-        top = float(np.max(np.abs(x)))
+        with np.errstate(all="ignore"):  # a nearly singular factor may overflow: keep the last x
+            y = scipy.linalg.solve_triangular(r, x, trans="T", lower=False, check_finite=False)
+            y = scipy.linalg.solve_triangular(r, y, lower=False, check_finite=False)
+        top = float(np.max(np.abs(y)))
         if not (top > 0 and math.isfinite(top)):
-            break
-        x = x / top
+            break  # any finite vector gives valid (if looser) Rayleigh enclosures
+        x = y / top
     return x
 
 
