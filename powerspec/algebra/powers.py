@@ -136,9 +136,9 @@ def hp_self_power(comb: Combination, x: HP, c: int) -> HP:
     """x o x o ... o x (c copies; c = 0 gives the identity) at high precision.
 
     Cartesian c x; a = 0: b^(c-1) x^c; a = 1: ((1 + b x)^c - 1)/b, where the
-    subtraction of 1 is done at 160 bits, far below the values' own radii.
+    subtraction of 1 is done at the precision that keeps b x (:func:`linear_prec`).
 
-    >>> from flint import acb, arb, fmpq
+    >>> from flint import fmpq
     >>> from powerspec.algebra.kinds import STRONG
     >>> hp_self_power(STRONG, fmpq(2), 3)
     26
@@ -247,7 +247,8 @@ class _Linear:
     Inactive for exact values and for rules other than a = 1.
     """
 
-    def __init__(self, s: Spectrum, k: int, comb: Combination, powers):
+    def __init__(self, s: Spectrum, k: int, comb: Combination, powers,
+                 spow: tuple[list[list[HP]], int] | None):
         self.on = comb.mode == "mul" and comb.a == 1 and isinstance(powers, Balls)
         self.hp: list[list[HP]] | None = None
         self.acc = None
@@ -255,15 +256,11 @@ class _Linear:
             return
         self.b, self.k = comb.b, k
         r = len(s)
-        bq = fmpq(comb.b.numerator, comb.b.denominator)
-        if s.hp is not None and composition_count(k, r) <= HP_CANDIDATES:
-            self.prec = linear_prec(bq, s.hp)  # 1 + b x must keep b x when it is tiny
-            with working(self.prec):
-                self.hp = [[(1 + bq * x) ** c for c in range(k + 1)] for x in s.hp]
-            self.bq = bq
-        elif s.hp is not None and r * (k + 1) <= HP_POWERS:
-            with working():
-                self.powers = to_balls([(1 + bq * x) ** c for x in s.hp for c in range(k + 1)])
+        if spow is not None and composition_count(k, r) <= HP_CANDIDATES:
+            self.hp, self.prec = spow
+            self.bq = fmpq(comb.b.numerator, comb.b.denominator)
+        elif spow is not None:
+            self.powers = to_balls([v for row in spow[0] for v in row])
         else:
             base = scale_shift(unify(_vec(s), powers)[0], 1, comb.b)
             counts = np.arange(r * (k + 1), dtype=np.int64) % (k + 1)
@@ -304,6 +301,18 @@ class _Linear:
         return out
 
 
+def _linear_powers(s: Spectrum, k: int, comb: Combination) -> tuple[list[list[HP]], int] | None:
+    """((1 + b x_i)^c for every atom i and c = 0..k, their precision) for a = 1 rules whose atoms
+    are known at high precision; None otherwise.  One table serves the atoms' powers under the
+    rule and the linearised chain of :class:`_Linear`."""
+    if comb.mode != "mul" or comb.a != 1 or s.hp is None or len(s) * (k + 1) > HP_POWERS:
+        return None
+    bq = fmpq(comb.b.numerator, comb.b.denominator)
+    prec = linear_prec(bq, s.hp)  # 1 + b x must keep b x when it is tiny
+    with working(prec):
+        return [[(1 + bq * x) ** c for c in range(k + 1)] for x in s.hp], prec
+
+
 def _compositions(s: Spectrum, k: int, comb: Combination) -> Spectrum:
     r = len(s)
     order = s.order**k
@@ -312,12 +321,18 @@ def _compositions(s: Spectrum, k: int, comb: Combination) -> Spectrum:
     vec = _vec(s)
     # x_i^(o c) for every atom i and count c = 0..k: at high precision when the atoms
     # are known there (one rounding per power instead of one per multiplication)
-    if s.hp is not None and r * (k + 1) <= HP_POWERS:
+    spow = _linear_powers(s, k, comb)
+    if spow is not None:  # a = 1: x^(o c) = ((1 + b x)^c - 1)/b from the one table
+        bq = fmpq(comb.b.numerator, comb.b.denominator)
+        with working(spow[1]):
+            xs = [(v - 1) / bq for row in spow[0] for v in row]
+        powers = to_balls(xs)
+    elif s.hp is not None and r * (k + 1) <= HP_POWERS:
         powers = to_balls([hp_self_power(comb, x, c) for x in s.hp for c in range(k + 1)])
     else:
         counts = np.arange(r * (k + 1), dtype=np.int64) % (k + 1)  # 0..k for each atom
         powers = self_power(comb, vec.take(np.repeat(np.arange(r), k + 1)), counts)
-    lin = _Linear(s, k, comb, powers)
+    lin = _Linear(s, k, comb, powers, spow)
     rem = np.array([k], dtype=np.int64)
     w = None  # the multiplicities: the first part sets them (r >= 2, see power())
     acc = None
