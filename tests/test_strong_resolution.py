@@ -31,6 +31,15 @@ def _reference(k: int) -> list[tuple[mpmath.mpf, int]]:
     return sorted(out)
 
 
+def _ends(v, digits: int) -> tuple[mpmath.mpf, mpmath.mpf]:
+    """A value's ball ends as mpmath numbers read with ``digits`` digits (call inside a workdps
+    and a flint precision that hold them); an exact rational gives both ends equal."""
+    if isinstance(v, fmpq):
+        x = mpmath.mpf(int(v.p)) / int(v.q)
+        return x, x
+    return tuple(mpmath.mpf(e.mid().str(digits, radius=False)) for e in (v.lower(), v.upper()))
+
+
 @pytest.mark.parametrize("k", [40, 100])
 def test_every_candidate_in_exactly_one_tight_atom(k):
     ref = _reference(k)
@@ -38,10 +47,8 @@ def test_every_candidate_in_exactly_one_tight_atom(k):
     atoms = []
     with mpmath.workdps(150), ctx.workprec(600):    # endpoints read exactly, not at 53 bits
         for v, m in ans.listed_atoms():
-            if isinstance(v, fmpq):
-                lo = hi = mpmath.mpf(int(v.p)) / int(v.q)
-            else:
-                lo, hi = (mpmath.mpf(x.mid().str(120, radius=False)) for x in (v.lower(), v.upper()))
+            lo, hi = _ends(v, 120)
+            if lo != hi:
                 lo, hi = lo - abs(lo) * mpmath.mpf(10) ** -115, hi + abs(hi) * mpmath.mpf(10) ** -115
             atoms.append((lo, hi, int(m)))
         lows = [a[0] for a in atoms]
@@ -74,7 +81,7 @@ def test_mix_coefficients_written_as_fractions_are_exact():
     top = ans.listed_atoms()[-1][0]
     with mpmath.workdps(50), ctx.workprec(300):
         truth = 2 * mpmath.sqrt(2) + mpmath.mpf(2) / 3
-        lo, hi = (mpmath.mpf(x.mid().str(60, radius=False)) for x in (top.lower(), top.upper()))
+        lo, hi = _ends(top, 60)
     assert lo <= truth <= hi
     assert ans.expression == "mix(1, 1/3, P(3)^2)"
     # at 160 bits (the strong-power chain) the third is kept: -3 + 3 (1 - sqrt 2 / 3)^80 is the
@@ -82,7 +89,7 @@ def test_mix_coefficients_written_as_fractions_are_exact():
     low = planner.spectrum("mix(1, 1/3, P(3)^80)").listed_atoms()[0][0]
     with mpmath.workdps(60), ctx.workprec(400):
         truth = -3 + 3 * (1 - mpmath.sqrt(2) / 3) ** 80
-        lo, hi = (mpmath.mpf(x.mid().str(80, radius=False)) for x in (low.lower(), low.upper()))
+        lo, hi = _ends(low, 80)
     assert lo <= truth <= hi and hi - lo < mpmath.mpf("1e-40")
 
 
@@ -105,10 +112,8 @@ def test_tiny_weights_keep_their_digits():
     atoms = []
     with mpmath.workdps(300), ctx.workprec(1000):
         for v, m in ans.listed_atoms():
-            if isinstance(v, fmpq):
-                lo = hi = mpmath.mpf(int(v.p)) / int(v.q)
-            else:
-                lo, hi = (mpmath.mpf(x.mid().str(250, radius=False)) for x in (v.lower(), v.upper()))
+            lo, hi = _ends(v, 250)
+            if lo != hi:
                 lo, hi = lo - abs(lo) * mpmath.mpf(10) ** -240, hi + abs(hi) * mpmath.mpf(10) ** -240
             atoms.append([lo, hi, int(m), 0])
         for value, m in ref:
@@ -145,10 +150,7 @@ def test_a_third_as_mix_coefficient_in_the_laplacian():
         counts = []
         with ctx.workprec(300):
             for v, m in ans.listed_atoms():
-                if isinstance(v, fmpq):
-                    lo = hi = mpmath.mpf(int(v.p)) / int(v.q)
-                else:
-                    lo, hi = (mpmath.mpf(x.mid().str(60, radius=False)) for x in (v.lower(), v.upper()))
+                lo, hi = _ends(v, 60)
                 counts.append((sum(1 for e in ev if lo - mpmath.mpf(10) ** -40 <= e
                                    <= hi + mpmath.mpf(10) ** -40), int(m)))
     assert all(c >= m for c, m in counts) and sum(m for _, m in counts) == 16
@@ -168,5 +170,5 @@ def test_api_and_expression_read_a_decimal_coefficient_alike():
     # 10 ((1 + sqrt 2 / 10)^20 - 1) (mpmath, 80 digits)
     with mpmath.workdps(80), ctx.workprec(400):
         t = 10 * ((1 + mpmath.sqrt(2) / 10) ** 20 - 1)
-        lo, hi = (mpmath.mpf(e.mid().str(90, radius=False)) for e in (a[0][0].lower(), a[0][0].upper()))
+        lo, hi = _ends(a[0][0], 90)
     assert lo <= t <= hi
