@@ -49,8 +49,6 @@ from powerspec.numbers.balls import Balls
 from powerspec.numbers.rationals import Rationals
 from powerspec.spectra.spectrum import Spectrum
 
-"""Integers longer than this are abbreviated in the text table (never in JSON)."""
-
 
 @dataclass
 class Answer:
@@ -83,13 +81,12 @@ class Answer:
         """(certified value, exact multiplicity) pairs in the listing order; ``rows`` (a slice of
         that order) converts only those atoms (a summary of 10^5 rows shows 20)."""
         sp = self.atoms
-        if rows is not None:
+        if rows is not None:  # the chosen atoms, already in listing order
             idx = np.arange(len(sp))
             idx = (idx[::-1] if self.descending else idx)[rows]
             sp = Spectrum(sp.values.take(idx), sp.mult[idx], order=sp.order, merged=True)
-            return list(zip(sp.balls(), [plain_count(m) for m in sp.mult.tolist()], strict=True))
         pairs = list(zip(sp.balls(), [plain_count(m) for m in sp.mult.tolist()], strict=True))
-        return pairs[::-1] if self.descending else pairs
+        return pairs[::-1] if self.descending and rows is None else pairs
 
     def zero_atoms(self) -> tuple[Any, bool]:
         """(multiplicity of an atom exactly 0 or None, True when some atom's ball may hold 0).
@@ -161,10 +158,11 @@ class Answer:
             "method": self.method,
         }
         if self.atoms is not None:
-            pairs = self.listed_atoms()
-            if head is not None and len(pairs) > head:
-                out["distinct"] = len(pairs)
-                pairs = pairs[:head]
+            n = len(self.atoms)
+            cut = head is not None and n > head
+            if cut:
+                out["distinct"] = n
+            pairs = self.listed_atoms(slice(0, head) if cut else None)
             atoms, radii = [], []
             for (v, _), jm in zip(pairs, json_counts(m for _, m in pairs), strict=True):
                 jv, r = json_value(v)
