@@ -42,8 +42,8 @@ from matplotlib.lines import Line2D
 from powerspec.answers.answer import count_text
 from powerspec.errors import InputError
 from powerspec.interfaces.plot_source import PlotSource
-from powerspec.interfaces.report import fmt_mean as _fmt_mean
 from powerspec.interfaces.report import share_text
+from powerspec.numbers.digits import mean_text
 
 VIEWS = ("auto", "density", "log", "cdf", "standard")
 STEM_MAX = 120
@@ -102,12 +102,12 @@ def _law(src: PlotSource, ax: _Axis):
     conditional = ""
     if ax.base == "x" and "mu" in p and p["sigma2"] > 0:
         mu, sd = p["mu"], math.sqrt(p["sigma2"])
-        legend = f"normal law, μ = {_fmt_mean(mu, sd)}, σ² = {_fmt(p['sigma2'])}"
+        legend = f"normal law, μ = {mean_text(mu, sd)}, σ² = {_fmt(p['sigma2'])}"
         nz = 1.0
     elif ax.base == "u" and "log_mu" in p and p["log_sigma2"] > 0:
         mu, sd = p["log_mu"], math.sqrt(p["log_sigma2"])
         nz = 1.0 - p["zero_mass"]
-        legend = (f"normal law of log|{src.s_text}| given {src.s_text} ≠ 0, μ = {_fmt_mean(mu, sd)}, "
+        legend = (f"normal law of log|{src.s_text}| given {src.s_text} ≠ 0, μ = {mean_text(mu, sd)}, "
                   f"σ² = {_fmt(p['log_sigma2'])}" + (f", times P({src.s_text} ≠ 0) = {_fmt(nz)}"
                                                      if NZ_VISIBLE <= nz < 1 else ""))
         if nz < NZ_VISIBLE:
@@ -121,7 +121,7 @@ def _law(src: PlotSource, ax: _Axis):
         return None
     if ax.scale != 1.0:
         legend = "N(0, 1)" + (f" × {_fmt(nz)}" if nz < 1 else "") + \
-            f"  (standardised by μ = {_fmt_mean(mu, sd)}, σ = {_fmt(sd)})" + conditional
+            f"  (standardised by μ = {mean_text(mu, sd)}, σ = {_fmt(sd)})" + conditional
 
     def pdf(z):
         v = ax.unshow(z)

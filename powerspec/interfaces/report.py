@@ -40,8 +40,7 @@ from flint import arb
 
 from powerspec.answers.answer import Answer, atom_rows, bound_text, count_text, value_text
 from powerspec.numbers.counts import BigCount, fraction_of
-from powerspec.numbers.digits import ball_text
-from powerspec.numbers.digits import mean_text as fmt_mean
+from powerspec.numbers.digits import ball_text, mean_text
 
 SUMMARY_AT = 60
 """Spectra with more distinct eigenvalues than this print a summary by default."""
@@ -156,12 +155,12 @@ def law_lines(params: dict, s_text: str | None = None) -> list[str]:
         return []
     if "mu" in params:
         sd = math.sqrt(max(params["sigma2"], 0.0))
-        return [f"  {'law':<11} normal, mean mu = {fmt_mean(params['mu'], sd)}, variance "
+        return [f"  {'law':<11} normal, mean mu = {mean_text(params['mu'], sd)}, variance "
                 f"sigma^2 = {params['sigma2']:.6g} (6 digits)"]
     s = s_text or "s"
     sd = math.sqrt(max(params["log_sigma2"], 0.0))
     return [
-        f"  {'law':<11} log|{s}| normal given {s} != 0: mean {fmt_mean(params['log_mu'], sd)}, "
+        f"  {'law':<11} log|{s}| normal given {s} != 0: mean {mean_text(params['log_mu'], sd)}, "
         f"variance {params['log_sigma2']:.6g} (6 digits)",
         f"  {'':<11} point mass at {s} = 0: {params['zero_mass']:.6g}; shares {s} > 0: "
         f"{params['positive_share']:.6g}, {s} < 0: {params['negative_share']:.6g}"]
@@ -219,5 +218,5 @@ def plain_share(m: int | BigCount, order: int | BigCount) -> float:
     return float(fraction_of(m, order).mid())
 
 
-__all__ = ["SUMMARY_AT", "SUMMARY_ENDS", "answer_text", "atom_lines", "fmt_mean", "law_lines",
+__all__ = ["SUMMARY_AT", "SUMMARY_ENDS", "answer_text", "atom_lines", "law_lines",
            "plain_share", "share_text", "truncated_json", "vertices"]
