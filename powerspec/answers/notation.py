@@ -56,9 +56,8 @@ def atom_rows(pairs) -> tuple[list[tuple[str, str, str]], bool]:
 def offset_text(v: Any) -> tuple[str, Any]:
     """(text, radius) of a value: :func:`ball_text`, except that a ball within 10^-12 (relative)
     of a non-zero integer n of at most 15 digits that provably is not n is written ``n + d`` /
-    ``n - d``
-    with d's own certified digits: -1 + 10^-32 and -1 + 5e-21, which the 20-digit cap prints as
-    -1.000... and -0.999..., stay apart from their neighbours.
+    ``n - d`` with d's own certified digits: -1 + 10^-32 and -1 + 5e-21, which the 20-digit
+    cap prints as -1.000... and -0.999..., stay apart from their neighbours.
 
     >>> with working():
     ...     x = arb(-1) + arb(10) ** -32 + arb(0, 1e-45)
@@ -92,11 +91,13 @@ class DigitText(str):
     """A long exact count's decimal digits: a JSON string that needs no escaping pass."""
 
 
-def plain_count(m):
+def plain_count(m: Any) -> int | BigCount:
+    """A multiplicity as a Python int, or the factored BigCount it already is."""
     return m if isinstance(m, BigCount) else int(m)
 
 
-def is_number(v) -> bool:
+def is_number(v: Any) -> bool:
+    """True for the real numbers the JSON writer converts (not bools)."""
     return isinstance(v, (int, float, Fraction, mpmath.mpf, BigCount)) and not isinstance(v, bool)
 
 
@@ -120,13 +121,10 @@ def json_counts(ns: Iterable[Any]) -> list[Any]:
     memo: dict[int, Any] = {}
     out = []
     for n in ns:
-        if isinstance(n, BigCount):
-            out.append(str(n))
+        if isinstance(n, BigCount) or int(n).bit_length() < 3000:
+            out.append(json_count(n))  # factored, or under 904 digits: nothing worth remembering
             continue
         n = int(n)
-        if n.bit_length() < 3000:  # under 904 digits: no conversion worth remembering
-            out.append(RawNumber(str(n)))
-            continue
         t = memo.get(n)
         if t is None:
             t = memo[n] = json_count(n)
