@@ -30,6 +30,8 @@ from powerspec.numbers.hp import working
 TEXT_DIGITS = 40
 """Counts with up to this many digits (about 132 bits) print in full."""
 
+_SHORT_BITS = int(3.32 * TEXT_DIGITS)  # counts of at most this many bits print in full
+
 
 def atom_rows(pairs) -> tuple[list[tuple[str, str, str]], bool]:
     """(rows of (eigenvalue, radius, multiplicity) texts, True when any radius is not 0).
@@ -174,7 +176,8 @@ def _mpf_exact(v: mpmath.mpf) -> fmpq | arb:
         return arb(man) * arb(2) ** exp
 
 
-def json_radius(r) -> Any:
+def json_radius(r: Any) -> Any:
+    """A radius for JSON: 0, a number rounded up to two digits, or a string beyond the doubles."""
     if not r:
         return 0
     t = radius_text(r)
@@ -259,11 +262,10 @@ def count_texts(ns: Iterable[Any]) -> list[str]:
     True
     """
     memo: dict[tuple[int, int], str] = {}
-    short = int(3.32 * TEXT_DIGITS)
     with working():
         # short ints (most rows' values) skip the call: this loop runs once per table row
-        return [str(n) if type(n) is int and n.bit_length() <= short else _count_text(n, memo)
-                for n in ns]
+        return [str(n) if type(n) is int and n.bit_length() <= _SHORT_BITS
+                else _count_text(n, memo) for n in ns]
 
 
 with working():
@@ -282,7 +284,7 @@ def _count_text(n: Any, memo: dict | None) -> str:
             return exact
         return _leading_text(to_arb(n).log() * _INV_LN10, None)[0]
     n = int(n)
-    if n.bit_length() <= 3.32 * TEXT_DIGITS:
+    if n.bit_length() <= _SHORT_BITS:
         return str(n)
     sign = "-" if n < 0 else ""
     n = abs(n)
