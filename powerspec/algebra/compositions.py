@@ -12,6 +12,7 @@ rule (move one copy to the next eigenvalue in the search order).
 
 from __future__ import annotations
 
+import heapq
 import math
 from fractions import Fraction
 
@@ -94,5 +95,50 @@ def successors(state: tuple, offsets):
                 yield tuple(nxt)
 
 
-__all__ = ["MAX_MULT_BITS", "MAX_STATES", "U", "as_hp", "count_pow", "multinomial", "start",
-           "state_mult", "successors"]
+class Frontier:
+    """The best-first frontier of both extremes searches: states in order of decreasing key,
+    each pushed once, visits counted against ``max_states`` (SizeLimitError naming ``what``),
+    and the largest error of a computed key kept, so that :meth:`top` bounds every unexplored
+    state's exact key.
+
+    >>> f = Frontier((2, 0), lambda s: (float(s[1]), 0.0), [0, 2], 10, "states")
+    >>> f.expand(f.pop()); f.pop(), f.visited
+    ((1, 1), 2)
+    """
+
+    def __init__(self, first: tuple, key, offsets, max_states: int, what: str):
+        self._heap = [(-0.0, first)]
+        self._seen = {first}
+        self._key, self._offsets = key, offsets
+        self._max, self._what = max_states, what
+        self.eps = 0.0
+        self.visited = 0
+
+    def __bool__(self) -> bool:
+        return bool(self._heap)
+
+    def pop(self) -> tuple:
+        """The unexplored state of largest key (counted against the cap)."""
+        state = heapq.heappop(self._heap)[1]
+        self.visited += 1
+        if self.visited > self._max:
+            raise SizeLimitError(f"the extremes search visited more than {self._max} "
+                                 f"{self._what}; ask for fewer eigenvalues")
+        return state
+
+    def expand(self, state: tuple) -> None:
+        """Push the successors of ``state`` not seen before."""
+        for nxt in successors(state, self._offsets):
+            if nxt not in self._seen:
+                self._seen.add(nxt)
+                kv, ke = self._key(nxt)
+                self.eps = max(self.eps, ke)
+                heapq.heappush(self._heap, (-kv, nxt))
+
+    def top(self) -> float:
+        """An upper bound of the exact key of every unexplored state (frontier not empty)."""
+        return -self._heap[0][0] + self.eps
+
+
+__all__ = ["MAX_MULT_BITS", "MAX_STATES", "U", "Frontier", "as_hp", "count_pow", "multinomial",
+           "start", "state_mult", "successors"]

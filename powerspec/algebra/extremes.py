@@ -26,7 +26,6 @@ astronomically large.
 
 from __future__ import annotations
 
-import heapq
 import math
 
 import numpy as np
@@ -34,11 +33,11 @@ from flint import arb, fmpq
 
 from powerspec.algebra.compositions import (
     MAX_STATES,
+    Frontier,
     U,
     as_hp,
     start,
     state_mult,
-    successors,
 )
 from powerspec.algebra.engine import Engine, affine
 from powerspec.algebra.extremes_mul import best_first_mul, classes
@@ -246,20 +245,12 @@ def _best_first_add(parts, m: int, up: bool, max_states: int = MAX_STATES) -> Sp
         c[offsets[:-1]] = 0.0  # the top atom's copies are in the base value
         return float(np.dot(c, delta)), float(np.dot(c, derr)) * (1 + 8 * U) + 1e-300
 
-    first = start(ordered)
-    heap = [(-0.0, first)]
-    seen = {first}
-    eps = 0.0
+    frontier = Frontier(start(ordered), key, offsets, max_states, "compositions")
     found_v: list[HP] = []
     found_m: list = []
-    visited = 0
     next_check = m
-    while heap:
-        neg, state = heapq.heappop(heap)
-        visited += 1
-        if visited > max_states:
-            raise SizeLimitError(f"the extremes search visited more than {max_states} compositions; "
-                                 "ask for fewer eigenvalues")
+    while frontier:
+        state = frontier.pop()
         with working():
             val = fmpq(0)
             for c, v in zip(state, flat, strict=True):
@@ -267,16 +258,11 @@ def _best_first_add(parts, m: int, up: bool, max_states: int = MAX_STATES) -> Sp
                     val = val + v * c
         found_v.append(val)
         found_m.append(state_mult(state, ordered, offsets))
-        for nxt in successors(state, offsets):
-            if nxt not in seen:
-                seen.add(nxt)
-                kv, ke = key(nxt)
-                eps = max(eps, ke)
-                heapq.heappush(heap, (-kv, nxt))
-        if not heap:
+        frontier.expand(state)
+        if not frontier:
             break
         if len(found_v) >= next_check:
-            if _enough(found_v, found_m, m, sign, base, -heap[0][0] + eps):
+            if _enough(found_v, found_m, m, sign, base, frontier.top()):
                 break
             next_check = len(found_v) + max(1, len(found_v) // 8)
     return Spectrum(HPValues(found_v), mult_array(found_m))

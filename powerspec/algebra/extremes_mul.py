@@ -17,13 +17,12 @@ Stopping is certified on the eigenvalues x themselves, after shifting back.
 
 from __future__ import annotations
 
-import heapq
 from fractions import Fraction
 
 import numpy as np
 from flint import arb, fmpq
 
-from powerspec.algebra.compositions import MAX_STATES, U, as_hp, count_pow, multinomial, successors
+from powerspec.algebra.compositions import MAX_STATES, Frontier, U, as_hp, count_pow, multinomial
 from powerspec.algebra.kinds import DIRECT, Combination
 from powerspec.algebra.powers import combine, power
 from powerspec.errors import NotExactError, SizeLimitError
@@ -156,43 +155,32 @@ def best_first_mul(comb: Combination, parts, m: int, up: bool, order,
         return float(np.dot(c, dlog)), float(np.dot(c, derr)) * (1 + 8 * U) + 1e-300
 
     start = tuple(x for cls, k in ops for x in ([k] + [0] * (len(cls) - 1)))
-    heap = [(-0.0, start)]
-    seen = {start}
-    eps = 0.0
-    visited = 0
+    frontier = Frontier(start, key, offsets, max_states, "magnitude combinations")
     next_check = m
     stuck_run = 0
-    while heap:
-        neg, state = heapq.heappop(heap)
-        visited += 1
-        if visited > max_states:
-            raise SizeLimitError(f"the extremes search visited more than {max_states} magnitude "
-                                 "combinations; ask for fewer eigenvalues")
+    while frontier:
+        state = frontier.pop()
         for v, mm in _class_values(state, ops, offsets, real):
             found_s.append(v)
             found_m.append(mm)
-        for nxt in successors(state, offsets):
-            if nxt not in seen:
-                seen.add(nxt)
-                kv, ke = key(nxt)
-                eps = max(eps, ke)
-                heapq.heappush(heap, (-kv, nxt))
-        if heap and len(found_s) >= next_check:
+        frontier.expand(state)
+        if frontier and len(found_s) >= next_check:
             # every unexplored s has sigma * s <= bound: below exp(base_log + top key) in |s|
             # (descending), or of the unwanted sign and at least exp(base_log - top key) in |s|
             # (ascending)
+            top = frontier.top()
             with working():
                 if ascending:
-                    bound = -(base_log + arb(fmpq(*float(heap[0][0] - eps).as_integer_ratio()))).exp()
+                    bound = -(base_log + arb(fmpq(*float(-top).as_integer_ratio()))).exp()
                 else:
-                    bound = (base_log + arb(fmpq(*float(-heap[0][0] + eps).as_integer_ratio()))).exp()
+                    bound = (base_log + arb(fmpq(*float(top).as_integer_ratio()))).exp()
             count, stuck = _certified_x(found_s, found_m, comb, sigma * bound, up)
             if count >= m:
                 return finish_mul(found_s, found_m, None, comb)
             stuck_run = stuck_run + 1 if stuck else 0
             # ties at the bound clear within a check or two; a run of checks whose most extreme
             # ball keeps holding the bound means the precision, not the search, is the limit
-            if stuck_run >= 6 and visited > STUCK_STATES:
+            if stuck_run >= 6 and frontier.visited > STUCK_STATES:
                 raise SizeLimitError(
                     "the wanted eigenvalues lie closer together than 160-bit precision separates "
                     "(many distinct values share one ball once shifted back); ask for the other "
