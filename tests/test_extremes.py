@@ -15,6 +15,7 @@ import powerspec as ps
 from powerspec.algebra.extremes import select
 from powerspec.errors import SizeLimitError
 from tests.reference import eigenvalues, expand, fold
+from tests.strategies import factor_matrix
 
 
 def top_atoms(expr, m, **kw):
@@ -115,17 +116,6 @@ def test_complex_spectra_ordered_by_real_part(expr):
         assert len(got) == len(want)
         for (a, ma), (b, mb) in zip(got, want, strict=True):
             assert abs(complex(a) - complex(b)) < 1e-9 and ma == mb
-
-
-@st.composite
-def factor_matrix(draw):
-    n = draw(st.integers(2, 4))
-    a = np.zeros((n, n))
-    for i in range(n):
-        for j in range(i, n):
-            if draw(st.booleans()):
-                a[i, j] = a[j, i] = draw(st.sampled_from([-1.0, 1.0, 2.0, 0.5]))
-    return a
 
 
 @settings(max_examples=80, deadline=None)

@@ -96,6 +96,28 @@ def extremes(engine: Engine, node: Node, kind: str, m: int, bottom: bool = False
         return select(sp, m, bottom), enumerate_
 
 
+def search(engine: Engine, node: Node, kind: str, m: int, bottom: bool = False,
+           max_states: int = MAX_STATES):
+    """The best-first search of :func:`extremes` alone, never the full enumeration.
+
+    Returns ``(spectrum, method)`` as :func:`extremes` does: the m largest
+    (smallest) distinct atoms with exact multiplicities, every other
+    eigenvalue certified to lie beyond the m-th.  Raises NotExactError where
+    the search does not apply (a single factor, a non-associative mix, a
+    spectrum that does not follow from the factors') and SizeLimitError past
+    ``max_states`` visited compositions.
+
+    >>> from powerspec.algebra.grammar import parse
+    >>> search(Engine(), parse("cart(C(5)^1000000)"), "laplacian", 2, bottom=True)[0].atoms()
+    [(0.0, 1), (1.381966011250105, 2000000)]
+    """
+    if not isinstance(m, int) or m < 1:
+        raise InputError(f"ask for at least one eigenvalue (m >= 1), got {m!r}")
+    if isinstance(node, Leaf):
+        raise NotExactError(f"{node.label()} is a single factor: list its spectrum instead")
+    return _search(engine, node, kind, m, bottom, max_states)
+
+
 class _NotAssociative(NotExactError):
     """The node's rule is a non-associative mix: no composition search (enumerate instead)."""
 
@@ -105,7 +127,7 @@ def _search(engine: Engine, node: Node, kind: str, m: int, bottom: bool, max_sta
     comb, use, post = engine.linear_form(node, kind)
     if comb.mode not in ("add", "mul"):
         raise _NotAssociative(node.label())
-    parts = _flat_parts(engine, node, use, comb, m)
+    parts = flat_parts(engine, node, use, comb, m)
     shift, factor = post
     up = (factor > 0) != bottom if not isinstance(factor, arb) else (factor > 0) != bottom
     if comb.mode == "add":
@@ -130,7 +152,7 @@ def search_size(engine: Engine, node: Node, kind: str) -> int | None:
         comb, use, _ = engine.linear_form(node, kind)
         if comb.mode not in ("add", "mul"):
             return None
-        parts = _flat_parts(engine, node, use, comb)
+        parts = flat_parts(engine, node, use, comb)
         shift, factor = comb.to_s()
         total = 1
         for vals, ms, k in parts:
@@ -143,7 +165,7 @@ def search_size(engine: Engine, node: Node, kind: str) -> int | None:
         return None
 
 
-def _flat_parts(engine: Engine, node: Product, use: str, comb: Combination,
+def flat_parts(engine: Engine, node: Product, use: str, comb: Combination,
                 ends_m: int | None = None):
     """[(atoms at high precision, multiplicities, copies)]; nested same-rule products flattened."""
     out = []
@@ -283,4 +305,4 @@ def _enough(vals: list[HP], mults: list, m: int, sign: int, base, rel_bound: flo
     return len(Spectrum(HPValues([x for x, _ in keep]), mult_array([mm for _, mm in keep]))) >= m
 
 
-__all__ = ["MAX_STATES", "extremes", "search_size", "select"]
+__all__ = ["MAX_STATES", "extremes", "flat_parts", "search", "search_size", "select"]

@@ -81,6 +81,8 @@ class BigCount:
 
     __radd__ = __add__
 
+    __radd__ = __add__  # addition commutes: int + BigCount (a running sum) lands here
+
     def __neg__(self):
         return BigCount({k: -v for k, v in self.terms.items()})
 

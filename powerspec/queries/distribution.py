@@ -29,12 +29,13 @@ Conventions (the user-visible contract):
   not the binary double just above it);
 * bounds of the bracket and law tiers are on the *fraction* of eigenvalues;
   ``count`` multiplies by the exact order (exact integers, or mpmath numbers
-  when the order has more than :data:`COUNT_INT_BITS` bits);
+  when the order has more than
+  :data:`~powerspec.queries.distnumbers.COUNT_INT_BITS` bits);
 * Laplacian-type kinds of direct/strong products of non-regular factors are
   not exact functions of the factor spectra: NotExactError.
 
-All access to spectrum and engine objects goes through the adapter section
-below (:func:`_atoms` and the ``_engine_*`` helpers).
+All access to spectrum and engine objects goes through the adapter module
+:mod:`powerspec.queries.distsource`.
 
 >>> a = cdf("cart(K(2)^10)", 0)
 >>> a.estimate, a.lower, a.upper, a.method.split(":")[0]
@@ -51,23 +52,40 @@ from fractions import Fraction
 import mpmath
 import numpy as np
 
-from powerspec.algebra.engine import DEFAULT_LIMIT, Engine, Leaf, Node, Product
-from powerspec.algebra.kinds import CARTESIAN, MATRIX_KINDS, MATRIX_RULES
+from powerspec.algebra.engine import DEFAULT_LIMIT, Engine
+from powerspec.algebra.kinds import MATRIX_KINDS
 from powerspec.answers.answer import Answer
 from powerspec.errors import InputError, NotExactError, SizeLimitError
 from powerspec.numbers.counts import bit_length, log2
 from powerspec.queries.common import matrix_label, resolve
+from powerspec.queries.distends import WindowTier
+from powerspec.queries.distnumbers import (
+    bound_width,
+    check_real,
+    decimal_level,
+    round_down,
+    round_up,
+    scale_count,
+)
 from powerspec.queries.distsolve import quantiles
+from powerspec.queries.distsource import (
+    ends_tiers,
+    engine_bound,
+    engine_fits,
+    engine_spectrum,
+    flatten,
+    window_cost,
+    window_tier,
+)
 from powerspec.queries.disttiers import (
     AddBracketTier,
     AddLaw,
-    Atoms,
     ExactTier,
     MulBracketTier,
     MulLaw,
 )
 from powerspec.tiers.bracket import GRID_LIMIT
-from powerspec.tiers.exact import exact_feasible, exact_spectrum
+from powerspec.tiers.exact import exact_seconds
 
 METHODS = ("auto", "exact", "bracket", "law")
 DEFAULT_TOL = 1e-3
@@ -82,74 +100,29 @@ COST_SPREAD = 3.0
 OUT_SLACK = 1e-12
 """Relative widening of bracket/law bounds for the rounding of their final sums."""
 
-COUNT_INT_BITS = 100_000
-"""Orders up to this many bits give exact-integer count bounds; larger give mpmath numbers."""
+ENDS_GATE = 0.02
+"""Predicted seconds of the cheapest tier meeting the width above which the ends tier is tried."""
+
+ENDS_BUDGET = 0.5
+"""Most predicted seconds of ends-tier search before a dearer tier that meets the width."""
+
+ENDS_TAIL = 10**12
+"""Eigenvalues on one side of a query up to which a law or bracket answer is refined by the ends."""
+
+ENDS_TAIL_FRACTION = 1e-6
+"""... or up to this fraction of them (the multiplicities of far tails are large: few atoms)."""
+
+ENDS_SURE = 4096
+"""... up to which the search surely lists them all within ENDS_BUDGET (at most one atom each)."""
+
+ENDS_PROBE = 0.05
+"""Predicted seconds of ends-tier search past ENDS_SURE (two rounds from each end)."""
+
+ENDS_REACH = 2.0
+"""Most predicted seconds of ends-tier search for ``method='exact'`` past the exact tier's limit."""
+
 
 EPS = float(np.finfo(float).eps)
-
-
-# ---------------------------------------------------------------- adapter
-def _atoms(sp) -> Atoms:
-    """The one reader of spectrum objects: real values, exact multiplicities, rigorous radii.
-
-    Returns :class:`~powerspec.queries.disttiers.Atoms`: float64 real parts of
-    the certified midpoints (+-inf beyond the double range), exact Python-int
-    multiplicities, and per atom a float64 radius that bounds the distance of
-    the true eigenvalue from that float (the ball radius plus the rounding of
-    the conversion, so exact integers keep radius 0), a relative radius (for
-    values beyond the double range) and a function giving atom i's midpoint
-    as a float or an mpmath number.
-    """
-    b = sp.as_balls()
-    with np.errstate(over="ignore", under="ignore", invalid="ignore", divide="ignore"):
-        mid = b.to_floats()
-        values = np.asarray(mid.real if mid.dtype.kind == "c" else mid, dtype=float)
-        radius = np.asarray(b.radii(), dtype=float)
-        # the scaled midpoint is exact in a double unless a non-zero one lands in the subnormal range
-        tiny = (np.abs(values) < 2.3e-308) & (np.asarray(b.mid) != 0)
-        radius = np.where(tiny, radius + 1e-323 * 2, radius)
-        # beyond the double range the value is +-inf and its error lives in the relative radius
-        radius = np.where(np.isfinite(values), radius, 0.0)
-        rel = np.where(b.mid != 0, b.rad / np.abs(b.mid), np.inf) * (1 + 1e-12)
-    mult = [int(m) for m in sp.mult.tolist()]
-    return Atoms(values, mult, radius, int(sp.order), bool(sp.is_real), sp.value,
-                 np.asarray(np.real(rel), dtype=float))
-
-
-def _engine_spectrum(eng: Engine, node: Node, kind: str) -> Atoms:
-    # the exact tier's routes: product rules, symmetry blocks, explicit build
-    return _atoms(exact_spectrum(eng, node, kind)[0])
-
-
-def _engine_fits(eng: Engine, node: Node, kind: str) -> bool:
-    return exact_feasible(eng, node, kind)
-
-
-def _engine_bound(eng: Engine, node: Node, kind: str) -> int:
-    return eng.bound(node, kind)
-
-
-def _engine_top_degree(eng: Engine, node: Node) -> float | None:
-    """The largest vertex degree (rounded up), or None when some weight is negative or too many."""
-    if any((f.adjacency.data < 0).any() for f in node.leaves()) or not eng.fits_degrees(node):
-        return None
-    at = _atoms(eng.degrees(node))
-    return float(np.max(at.values + at.radius))
-
-
-def _engine_linear_form(eng: Engine, node: Node, kind: str):
-    """(combination, operand kind, (shift, factor) as floats) of the engine's linear form."""
-    comb, use, post = eng.linear_form(node, kind)
-    return comb, use, tuple(_to_float(v) for v in post)
-
-
-def _to_float(v) -> float:
-    """A float from an exact Fraction, a flint fmpq or the midpoint of a flint ball."""
-    if isinstance(v, (int, float, Fraction)):
-        return float(v)
-    if hasattr(v, "p") and hasattr(v, "q"):
-        return float(Fraction(int(v.p), int(v.q)))
-    return float(v.mid()) if hasattr(v, "mid") else float(v)
 
 
 # ----------------------------------------------------------------- checks
@@ -164,93 +137,6 @@ def _check_method(method, tol):
         if tol >= 1:
             raise InputError(
                 f"tol is a width on the fraction of eigenvalues; use a value below 1, got {tol!r}")
-
-
-def _check_real(x, what: str) -> float:
-    if isinstance(x, bool) or not isinstance(x, (int, float, np.integer, np.floating)):
-        raise InputError(f"{what} must be a real number, got {x!r}")
-    x = float(x)
-    if not math.isfinite(x):
-        raise InputError(f"{what} must be finite, got {x!r}")
-    return x
-
-
-def decimal_level(q) -> Fraction:
-    """The quantile level as the exact rational the user wrote (0.1 -> 1/10), checked in (0, 1).
-
-    Floats are read as their shortest decimal representation, so 0.1 means 1/10.
-
-    >>> decimal_level(0.1), decimal_level("3/8"), decimal_level(Fraction(1, 3))
-    (Fraction(1, 10), Fraction(3, 8), Fraction(1, 3))
-    """
-    bad = InputError(f"the quantile level must lie strictly between 0 and 1, got {q!r}")
-    if isinstance(q, bool):
-        raise bad
-    try:
-        if isinstance(q, (float, np.floating)):
-            if not math.isfinite(float(q)):
-                raise bad
-            f = Fraction(repr(float(q)))
-        elif isinstance(q, (int, np.integer, Fraction)):
-            f = Fraction(q)
-        elif isinstance(q, str):
-            f = Fraction(q.strip())
-        elif hasattr(q, "as_integer_ratio"):  # decimal.Decimal and friends: their exact value
-            f = Fraction(*q.as_integer_ratio())
-        else:
-            raise bad
-    except (ValueError, ZeroDivisionError, OverflowError) as exc:
-        raise bad from exc
-    if not 0 < f < 1:
-        raise bad
-    return f
-
-
-def float_up(f: Fraction) -> float:
-    """The smallest float >= f (so that for floats v: v >= f <=> v >= float_up(f))."""
-    v = float(f)
-    return v if Fraction(v) >= f else math.nextafter(v, math.inf)
-
-
-# ---------------------------------------------------------------- flatten
-def _flatten(eng: Engine, node: Node, kind: str):
-    """(comb, [(Atoms in s-space, copies)], alpha, beta): X = alpha + beta * s, or None.
-
-    Nested products with the same exact rule are merged (cart(cart(G^a)^b) is
-    cart(G^(ab))); other operands must have exact spectra.
-    """
-    if isinstance(node, Leaf):
-        # a single factor: one copy under the additive rule (its spectrum is exact anyway)
-        return CARTESIAN, [(_engine_spectrum(eng, node, kind), 1)], 0.0, 1.0
-    comb, use, post = _engine_linear_form(eng, node, kind)
-    if comb.mode not in ("add", "mul"):
-        return None  # a left fold (a outside {0, 1}) or the zero rule (a = b = 0)
-    parts = []  # operand spectra mapped to s-space
-    to_shift, to_factor = (float(v) for v in comb.to_s())
-
-    def collect(n, mult):
-        for child, k in n.operands:
-            if isinstance(child, Product) and MATRIX_RULES[use](child.comb) == comb:
-                collect(child, mult * k)
-            else:
-                try:
-                    at = _engine_spectrum(eng, child, use)
-                except SizeLimitError as exc:
-                    raise SizeLimitError(
-                        f"the distribution tiers need an exact spectrum of each operand of the "
-                        f"outer product; {child.label()} is too large ({exc})") from exc
-                if not np.all(np.isfinite(at.values)):
-                    raise SizeLimitError(
-                        f"{child.label()}: operand eigenvalues beyond the double range; ask for a "
-                        "smaller operand")
-                parts.append((at if (to_shift, to_factor) == (0.0, 1.0)
-                              else at.mapped(to_shift, to_factor), mult * k))
-
-    collect(node, 1)
-    back_shift, back_factor = comb.from_s()
-    alpha = post[0] + post[1] * back_shift
-    beta = post[1] * back_factor
-    return comb, parts, alpha, beta
 
 
 # ---------------------------------------------------------------- driver
@@ -269,13 +155,16 @@ class _Query:
         self.label = self.node.label()
         self.flat = None
         self.mode = None
+        self.counts_only = False  # set by count: the ends tier may then hold a factored order
+        self.at_points = False  # set by cdf, count, quantile: the ends tier answers at points only
+        self.window: tuple[float, float] | None = None  # set by count: a window tier may answer
         self.costs: dict[str, float] = {}  # estimated seconds of the tiers considered by choose
         self.meeting: dict[str, float] = {}  # ... of those predicted to meet the width
 
     # -- tier construction
     def _flat(self):
         if self.flat is None:
-            self.flat = _flatten(self.eng, self.node, self.matrix)
+            self.flat = flatten(self.eng, self.node, self.matrix)
             if self.flat is None:
                 raise NotExactError(
                     f"{self.label}: the bracket and law tiers need cart, direct, strong or mix(a, b) "
@@ -286,14 +175,14 @@ class _Query:
         return self.flat
 
     def exact(self):
-        if not _engine_fits(self.eng, self.node, self.matrix):
+        if not engine_fits(self.eng, self.node, self.matrix):
             raise SizeLimitError(
                 f"the exact spectrum of {self.label} may hold up to "
-                f"{_engine_bound(self.eng, self.node, self.matrix)} distinct eigenvalues with exact "
+                f"{engine_bound(self.eng, self.node, self.matrix)} distinct eigenvalues with exact "
                 f"multiplicities of up to {bit_length(self.node.order)} bits, beyond the limit of "
                 f"{self.eng.limit} atoms / 2 GiB; use --method bracket or law")
         try:
-            at = _engine_spectrum(self.eng, self.node, self.matrix)
+            at = engine_spectrum(self.eng, self.node, self.matrix)
         except SizeLimitError as exc:
             raise SizeLimitError(
                 f"the exact spectrum of {self.label} does not fit the limit ({exc}); use "
@@ -310,16 +199,65 @@ class _Query:
             return AddBracketTier(parts, tol, self.grid_limit, plan_only)
         return MulBracketTier(parts, tol, self.grid_limit, self.label, plan_only)
 
+    def ends(self, width_of, tol: float, budget: float):
+        """The first ends tier (atoms listed from the bottom or the top of the spectrum, see
+        :func:`~powerspec.queries.distsource.ends_tiers`) whose width meets ``tol`` within
+        ``budget`` seconds of predicted search, or None."""
+        if not self.at_points or not (isinstance(self.node.order, int) or self.counts_only):
+            return None  # cdf and quantile form fractions of the order: it must be an int
+        for tier in ends_tiers(self.eng, self.node, self.matrix, budget):
+            if width_of(tier) <= tol:
+                return tier
+        return None
+
+    def window_cost(self) -> float | None:
+        """Predicted seconds of the window tier (count queries of additive rules), else None."""
+        if self.window is None:
+            return None
+        return window_cost(self.eng, self.node, self.matrix)
+
+    def window_tier(self) -> WindowTier:
+        """The window tier of the count's [a, b] (SizeLimitError past its limits)."""
+        try:
+            return window_tier(self.eng, self.node, self.matrix, *self.window)
+        except NotExactError as exc:
+            raise SizeLimitError(str(exc)) from exc
+
+    def refine(self, tier, width_of, below, above):
+        """An ends tier in place of ``tier`` where that is narrower and cheap to find.
+
+        ``below`` / ``above`` are ``tier``'s upper bounds on the fractions of
+        eigenvalues on either side of the query; when one of them holds at most
+        ENDS_TAIL eigenvalues (or the fraction ENDS_TAIL_FRACTION), the
+        best-first search from that end may list few atoms (never more than
+        the eigenvalues, often far fewer), so it is tried: with
+        ENDS_BUDGET when the side holds at most ENDS_SURE eigenvalues (the
+        search then surely reaches the query), else with ENDS_PROBE.
+        Returns ``tier`` itself when nothing narrower is found.
+        """
+        if isinstance(tier, (ExactTier, WindowTier)) or self.method_req != "auto":
+            return tier
+        tail = min(mpmath.mpf(below), mpmath.mpf(above))  # an mpmath number below the double range
+        count = -math.inf if tail <= 0 else float(mpmath.log(tail, 2)) + log2(self.node.order)
+        if count > math.log2(ENDS_TAIL) and tail > ENDS_TAIL_FRACTION:
+            return tier
+        budget = ENDS_BUDGET if count <= math.log2(ENDS_SURE) else ENDS_PROBE
+        # half the width (which may have underflowed to 0: then only an exact count will do)
+        return self.ends(width_of, width_of(tier) / 2, budget) or tier
+
     def exact_cost(self, evaluations: int = 1) -> float:
         """Estimated seconds of the exact tier (measured: ~3.5 us per candidate atom, 1 ms fixed).
 
         The per-atom cost covers the spectrum and the exact tier's three sorted
         views with exact cumulative counts (cart(C(5)^1000): 5 * 10^5 atoms,
-        3.8 s measured; cart(C(7)^200): 1.4 * 10^6 atoms, 5.5 s).
+        3.8 s measured; cart(C(7)^200): 1.4 * 10^6 atoms, 5.5 s).  Spectra that
+        the product rules do not give cost what their route costs
+        (:func:`~powerspec.tiers.exact.exact_seconds`: symmetry blocks or an
+        explicit build).
         """
-        bound = _engine_bound(self.eng, self.node, self.matrix)
         bits = max(1, bit_length(self.node.order))
-        return 1e-3 + 3.5e-6 * bound * (1 + bits / 2048) + 2e-5 * evaluations
+        per_atom = 3.5e-6 * (1 + bits / 2048)
+        return 1e-3 + exact_seconds(self.eng, self.node, self.matrix, per_atom) + 2e-5 * evaluations
 
     def choose(self, width_of, evaluations: int = 1):
         """Pick the tier; ``width_of(tier)`` is the bound width of the query under that tier.
@@ -338,6 +276,18 @@ class _Query:
         """
         m = self.method_req
         if m == "exact":
+            fits = engine_fits(self.eng, self.node, self.matrix)
+            cost = self.window_cost()
+            if cost is not None and (not fits or cost < self.exact_cost(evaluations)):
+                try:
+                    return self.window_tier()
+                except SizeLimitError:
+                    pass
+            if not fits or self.exact_cost(evaluations) > ENDS_GATE:
+                # the atoms at one end may answer exactly before the full spectrum is built
+                tier = self.ends(width_of, self.tol or 0.0, ENDS_BUDGET if fits else ENDS_REACH)
+                if tier is not None:
+                    return tier
             return self.exact()
         if m == "law":
             return self.law()
@@ -345,8 +295,10 @@ class _Query:
             return self.bracket(self.tol or DEFAULT_TOL)
         tol = self.tol if self.tol is not None else DEFAULT_TOL
         cands: dict[str, tuple[float, float]] = {}  # name -> (cost, width)
-        if _engine_fits(self.eng, self.node, self.matrix):
+        if engine_fits(self.eng, self.node, self.matrix):
             cands["exact"] = (self.exact_cost(evaluations), 0.0)
+        if (cost := self.window_cost()) is not None:
+            cands["window"] = (cost, 0.0)
         law, w_law, plan = None, math.inf, None
         try:
             self._flat()
@@ -365,7 +317,15 @@ class _Query:
         self.costs = {k: v[0] for k, v in cands.items()}
         meet = {k: v for k, v in cands.items() if v[1] <= tol}
         self.meeting = {k: v[0] for k, v in meet.items()}
-        rank = {"exact": 0, "bracket": 1, "law": 2}
+        cheapest = min((v[0] for v in meet.values()), default=math.inf)
+        ends_tried = cheapest > ENDS_GATE
+        if ends_tried:
+            # near an end of the spectrum a few listed atoms count exactly: try them for a
+            # fraction of what the cheapest tier meeting the width would cost
+            tier = self.ends(width_of, tol, min(ENDS_BUDGET, cheapest / COST_SPREAD))
+            if tier is not None:
+                return tier
+        rank = {"window": 0, "exact": 1, "bracket": 2, "law": 3}
         widths = {"law": w_law}  # of the tiers tried
         while meet:
             cheapest = min(v[0] for v in meet.values())
@@ -374,7 +334,8 @@ class _Query:
             if name == "law":
                 return law
             try:
-                tier = self.exact() if name == "exact" else self.bracket(tol)
+                tier = (self.exact() if name == "exact" else self.window_tier() if name == "window"
+                        else self.bracket(tol))
                 w = width_of(tier)
                 if w <= tol:
                     return tier
@@ -383,6 +344,10 @@ class _Query:
                 widths[name] = math.inf
             del meet[name]  # it does not meet the width after all: choose again among the rest
             self.meeting.pop(name)
+        if not ends_tried:  # every tier predicted to meet the width turned out wider
+            tier = self.ends(width_of, tol, ENDS_BUDGET)
+            if tier is not None:
+                return tier
         if self.tol is None:
             if law is not None:
                 return law
@@ -468,25 +433,6 @@ def _answer(query, q: _Query, tier, est, lo, hi, inputs):
                           "degrees": q.degrees, "tier": tier.name})
 
 
-def _float_down(v) -> float:
-    """The largest float <= v (exact Fractions are rounded outward)."""
-    f = float(v)
-    return f if not isinstance(v, Fraction) or Fraction(f) <= v else math.nextafter(f, -math.inf)
-
-
-def _float_up(v):
-    """The smallest float >= v (an mpmath number is kept when below the double range)."""
-    if isinstance(v, mpmath.mpf):
-        f = float(v)
-        return v if (f == 0 and v != 0) else (f if f >= v else math.nextafter(f, math.inf))
-    f = float(v)
-    return f if not isinstance(v, Fraction) or Fraction(f) >= v else math.nextafter(f, math.inf)
-
-
-def _width(b) -> float:
-    return float(np.ravel(b[2])[0]) - float(np.ravel(b[1])[0])
-
-
 def cdf(expr, x, matrix: str = "adjacency", *, method: str = "auto", tol: float | None = None,
         limit: int | None = None, degrees: str = "out") -> Answer:
     """Fraction of eigenvalues with (real part) <= x, with rigorous lower/upper bounds.
@@ -502,26 +448,18 @@ def cdf(expr, x, matrix: str = "adjacency", *, method: str = "auto", tol: float 
     ('law', True, True)
     """
     q = _Query(expr, matrix, method, tol, limit, degrees)
-    x = _check_real(x, "x")
-    tier = q.choose(lambda t: _width(q.x_eval(t, np.array([x]))))
+    q.at_points = True
+    x = check_real(x, "x")
+
+    def width(t):
+        return bound_width(q.x_eval(t, np.array([x])))
+
+    tier = q.choose(width)
     est, lo, hi = q.x_cdf(tier, x)
-    return _answer("cdf", q, tier, float(est), _float_down(lo), _float_up(hi), {"x": x})
-
-
-def _scale_count(n, frac, kind: str):
-    """n * frac as a count: exact int (floor/ceil for bounds) or mpmath for enormous orders."""
-    if isinstance(frac, mpmath.mpf):
-        nn = mpmath.mpf(int(n)) if isinstance(n, int) else mpmath.power(2, mpmath.mpf(log2(n)))
-        return nn * frac
-    if isinstance(n, int) and n.bit_length() <= COUNT_INT_BITS:
-        v = Fraction(frac) * n
-        if kind == "lo":
-            return max(0, math.ceil(v))
-        if kind == "hi":
-            return min(n, math.floor(v))
-        return float(v) if n.bit_length() <= 1000 else mpmath.mpf(v.numerator) / v.denominator
-    nn = mpmath.mpf(int(n)) if isinstance(n, int) else mpmath.power(2, mpmath.mpf(log2(n)))
-    return nn * mpmath.mpf(float(frac))
+    better = q.refine(tier, width, hi, 1 - lo)
+    if better is not tier:
+        tier, (est, lo, hi) = better, q.x_cdf(better, x)
+    return _answer("cdf", q, tier, float(est), round_down(lo), round_up(hi), {"x": x})
 
 
 def count(expr, a, b, matrix: str = "adjacency", *, method: str = "auto", tol: float | None = None,
@@ -537,26 +475,44 @@ def count(expr, a, b, matrix: str = "adjacency", *, method: str = "auto", tol: f
     56
     """
     q = _Query(expr, matrix, method, tol, limit, degrees)
-    a = _check_real(a, "a")
-    b = _check_real(b, "b")
+    q.at_points = True
+    a = check_real(a, "a")
+    b = check_real(b, "b")
     if a > b:
         raise InputError(f"count needs a <= b, got a = {a!r} > b = {b!r}")
+
+    n = q.node.order
 
     def frac(tier):
         hb = q.x_cdf(tier, b, False)
         ha = q.x_cdf(tier, a, True)
         return hb[0] - ha[0], max(0, hb[1] - ha[2]), min(1, hb[2] - ha[1])
 
-    tier = q.choose(lambda t: _width(frac(t)), evaluations=2)
+    def exact_counts(tier):
+        # exact integers straight from the cumulative counts (no fractions of the order)
+        if isinstance(tier, WindowTier):
+            return tier.counts3
+        cb, ca = tier.counts(b, False), tier.counts(a, True)
+        return cb[0] - ca[0], max(0, cb[1] - ca[2]), min(n, cb[2] - ca[1])
+
+    def width(tier):
+        if not isinstance(tier, (ExactTier, WindowTier)):
+            return bound_width(frac(tier))
+        _, lo, hi = exact_counts(tier)
+        return 0.0 if hi == lo else 2.0 ** (log2(hi - lo) - log2(n))
+
+    q.counts_only = True  # an order kept factored is fine here: no fraction is formed
+    q.window = (a, b)
+    tier = q.choose(width, evaluations=2)
+    if not isinstance(tier, (ExactTier, WindowTier)):
+        tier = q.refine(tier, width, q.x_cdf(tier, b, False)[2], 1 - q.x_cdf(tier, a, True)[1])
+    if isinstance(tier, (ExactTier, WindowTier)):
+        return _answer("count", q, tier, *exact_counts(tier), {"a": a, "b": b})
     est, lo, hi = frac(tier)
-    n = q.node.order
-    if isinstance(tier, ExactTier):
-        vals = tuple(int(v * n) for v in (est, lo, hi))
-        return _answer("count", q, tier, *vals, {"a": a, "b": b})
     lo = max(0.0, float(lo))
     hi = float(hi) if not isinstance(hi, mpmath.mpf) else hi
     est = min(max(float(est), lo), float(hi))
-    vals = (_scale_count(n, est, "est"), _scale_count(n, lo, "lo"), _scale_count(n, hi, "hi"))
+    vals = (scale_count(n, est, "est"), scale_count(n, lo, "lo"), scale_count(n, hi, "hi"))
     return _answer("count", q, tier, *vals, {"a": a, "b": b})
 
 
@@ -577,16 +533,17 @@ def quantile(expr, p, matrix: str = "adjacency", *, method: str = "auto", tol: f
     """
     level = decimal_level(p)
     q = _Query(expr, matrix, method, tol, limit, degrees)
+    q.at_points = True
     from_law: dict[int, tuple] = {}
 
     def width_at_estimate(tier):
         if isinstance(tier, ExactTier):
-            return 0.0
+            return tier.quantile_width(level)
         res = quantiles(q, tier, [level])
         from_law[id(tier)] = res
         x = res[0][0]
         x = float(x) if isinstance(x, float) or abs(x) < 1e300 else math.copysign(1e300, float(x))
-        return _width(q.x_eval(tier, np.array([x])))
+        return bound_width(q.x_eval(tier, np.array([x])))
 
     tier = q.choose(width_at_estimate, evaluations=30)
     if isinstance(tier, ExactTier):

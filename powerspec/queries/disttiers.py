@@ -1,7 +1,7 @@
 """The distribution tiers as the queries use them: exact atoms, law mixtures and brackets.
 
 Every tier here works on plain arrays (:class:`Atoms`), never on spectrum
-objects: :func:`powerspec.queries.distribution._atoms` is the one adapter
+objects: :func:`powerspec.queries.distsource.atoms_of` is the one adapter
 that reads them.  Each tier evaluates the CDF of s (the linearised product
 variable, see :mod:`powerspec.algebra.kinds`) *vectorised*: ``evaluate``
 takes arrays of points and returns arrays (estimate, lower, upper), so a
@@ -98,9 +98,14 @@ class ExactTier:
             "exact: the full certified spectrum (product rules, symmetry reduction or explicit "
             "build), counted exactly (atoms within their certified radius of x count in the upper "
             "bound only)")
-        # three sorted views: by value (estimate), by value + radius (lower), by value - radius (upper)
+        # three sorted views: by value (estimate), by value + radius (lower), by value - radius
+        # (upper); the ball ends are stepped outward, since v +- r rounds to nearest (back to v
+        # itself when r < ulp(v) / 2, which would count such an atom as certainly <= v)
+        with np.errstate(invalid="ignore"):
+            up = np.where(r > 0, np.nextafter(v + r, np.inf), v)
+            down = np.where(r > 0, np.nextafter(v - r, -np.inf), v)
         self._views = []
-        for key in (v, v + r, v - r):
+        for key in (v, up, down):
             o = np.argsort(key, kind="stable")
             same = next((view for view in self._views if np.array_equal(view[2], o)), None)
             if same is not None:
@@ -147,6 +152,10 @@ class ExactTier:
             return big
         # two roundings to nearest of relative size 2^-53 each: widened by 2^-50 of |big|
         return big + side * abs(big) * (mpmath.mpf(rel) + mpmath.mpf(2) ** -50)
+
+    def quantile_width(self, q: Fraction) -> float:
+        """Width of the CDF bounds where the q-quantile is read: 0.0 (all atoms are listed)."""
+        return 0.0
 
     def quantile(self, q: Fraction):
         """(estimate, lower, upper) of inf{x : F(x) >= q} for an exact rational q.

@@ -34,14 +34,10 @@ import numpy as np
 from powerspec.algebra.moments import MomentEngine, trace_moments
 from powerspec.errors import InputError, NotExactError, SizeLimitError
 from powerspec.queries.common import matrix_label
-from powerspec.queries.distribution import (
-    _engine_top_degree,
-    _Query,
-    _width,
-    decimal_level,
-    float_up,
-)
+from powerspec.queries.distnumbers import bound_width, decimal_level, float_up
+from powerspec.queries.distribution import _Query
 from powerspec.queries.distsolve import quantiles
+from powerspec.queries.distsource import engine_top_degree
 from powerspec.queries.disttiers import AddBracketTier, AddLaw, ExactTier, MulLaw
 from powerspec.tiers.momentbounds import DEFAULT_ORDER, cdf_bounds
 
@@ -385,7 +381,7 @@ class MomentDistribution(SpectralDistribution):
         # with non-negative weights the Laplacian / signless spectrum lies in [0, 2 d_max]
         # (Gershgorin); otherwise within +-sqrt(tau_2 * order) (Cauchy-Schwarz on the traces).
         # Bisection on the bounds, 60 halvings.
-        top = _engine_top_degree(self._q.eng, self._q.node)
+        top = engine_top_degree(self._q.eng, self._q.node)
         if top is not None:
             x0, x1 = 0.0, 2.0 * top * (1 + 1e-12) + 1e-300
         else:
@@ -434,7 +430,7 @@ def distribution(expr, matrix: str = "adjacency", *, method: str = "auto", tol: 
             return 0.0
         x = quantiles(q, tier, half)[0][0]
         x = float(x) if abs(x) < 1e300 else math.copysign(1e300, float(x))
-        return _width(q.x_eval(tier, np.array([x])))
+        return bound_width(q.x_eval(tier, np.array([x])))
 
     try:
         tier = q.choose(width_at_median, evaluations=100)
