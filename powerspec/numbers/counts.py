@@ -81,8 +81,6 @@ class BigCount:
 
     __radd__ = __add__
 
-    __radd__ = __add__  # addition commutes: int + BigCount (a running sum) lands here
-
     def __neg__(self):
         return BigCount({k: -v for k, v in self.terms.items()})
 
@@ -151,10 +149,10 @@ class BigCount:
         return hash(tuple(sorted(self.terms.items())))
 
     def __lt__(self, other) -> bool:
-        return (self - other).sign() < 0
+        return _sign(self - other) < 0
 
     def __gt__(self, other) -> bool:
-        return (self - other).sign() > 0
+        return _sign(self - other) > 0
 
     def __le__(self, other) -> bool:
         return not self > other
@@ -170,6 +168,11 @@ class BigCount:
         if b < 0:
             return -1
         return 0
+
+
+def _sign(x: int | BigCount) -> int:
+    """-1, 0 or +1 of a difference of counts (small differences settle to plain ints)."""
+    return x.sign() if isinstance(x, BigCount) else (x > 0) - (x < 0)
 
 
 def _canonical(d: dict[int, int], c: Fraction) -> tuple[tuple, Fraction]:
