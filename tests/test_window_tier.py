@@ -84,3 +84,41 @@ def test_count_picks_the_window_over_the_full_spectrum():
     got = ps.count("cart(C(5)^1000)", 0, 2)
     assert "compositions whose double-precision values" in got.method
     assert got.lower <= got.estimate <= got.upper
+
+
+def _cycle5_count(k: int, lo: int, hi: int) -> int:
+    """Eigenvalues of A(C_5)^{box k} in [lo, hi] (integers lo, hi), exactly: a copies on 2 and
+    b, c (two ways each) on 2cos(2pi/5) = (sqrt5 - 1)/2 and 2cos(4pi/5) = -(sqrt5 + 1)/2, so the
+    value is 2a - (b + c)/2 + (b - c) sqrt5 / 2; it is rational only when b = c."""
+    total = 0
+    for a in range(k + 1):
+        for b in range(k - a + 1):
+            c = k - a - b
+            if b == c:
+                inside = lo <= 2 * a - b <= hi
+            else:  # irrational: never equal to an integer end, so floats decide
+                v = 2 * a - (b + c) / 2 + (b - c) * math.sqrt(5) / 2
+                inside = lo < v < hi
+            if inside:
+                total += math.comb(k, a) * math.comb(k - a, b) * 2 ** (b + c)
+    return total
+
+
+def test_values_beyond_the_double_range_are_not_dropped():
+    # source: closed form -- direct(scale(1e100, K(2))^4, P(3)) has the eigenvalue 0 16 times
+    # (2^4 sign patterns times P(3)'s 0) and the others overflow doubles (+-sqrt2 * 10^400); so
+    # the count is 16 times that of C(5)^10 in [-1, 1] (exact enumeration, _cycle5_count).  The
+    # float filter once turned the overflowing compositions into NaN and dropped them.
+    want = 16 * _cycle5_count(10, -1, 1)
+    for method in ("auto", "exact"):
+        got = ps.count("cart(direct(scale(1e100, K(2))^4, P(3)), C(5)^10)", -1, 1, method=method)
+        assert (got.estimate, got.lower, got.upper) == (want, want, want)
+
+
+def test_many_candidates_fall_back_to_the_full_spectrum():
+    # source: C_4 = K_2 box K_2, so cart(C(4)^1000) is Q_2000: eigenvalues 2000 - 2j with
+    # multiplicity C(2000, j); |2000 - 2j| <= 300 for j in [850, 1150].  139,401 compositions may
+    # lie in the window: certifying them would cost more than the full spectrum, which answers
+    got = ps.count("cart(C(4)^1000)", -300, 300, method="exact")
+    want = sum(math.comb(2000, j) for j in range(850, 1151))
+    assert (got.estimate, got.lower, got.upper) == (want, want, want)

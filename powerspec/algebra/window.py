@@ -41,6 +41,9 @@ from powerspec.numbers.hp import as_acb, radius, working
 MAX_COMPOSITIONS = 4_000_000
 """Most compositions whose values are computed in floats (about 8 bytes each per operand)."""
 
+MAX_CELLS = 16_000_000
+"""Most compositions times values per operand held at once (int64: 128 MB)."""
+
 MAX_CANDIDATES = 200_000
 """Most compositions recomputed as balls (those that may lie in the window)."""
 
@@ -66,16 +69,23 @@ def compositions(k: int, r: int) -> np.ndarray:
     >>> compositions(2, 3).tolist()
     [[0, 0, 2], [0, 1, 1], [0, 2, 0], [1, 0, 1], [1, 1, 0], [2, 0, 0]]
     """
-    rows = np.zeros((1, 0), dtype=np.int64)
     left = np.array([k], dtype=np.int64)
+    cols, links = [], []  # per value: its counts, and each row's parent row one value earlier
     for _ in range(r - 1):
         reps = left + 1  # each row takes 0..left copies on this value
         idx = np.repeat(np.arange(len(left)), reps)
         start = np.cumsum(reps) - reps
         c = np.arange(int(reps.sum()), dtype=np.int64) - np.repeat(start, reps)
-        rows = np.hstack([rows[idx], c[:, None]])
+        cols.append(c)
+        links.append(idx)
         left = left[idx] - c
-    return np.hstack([rows, left[:, None]])
+    out = np.empty((len(left), r), dtype=np.int64)
+    out[:, r - 1] = left
+    rows = np.arange(len(left))  # each final row's row at the current value, walking back
+    for j in range(r - 2, -1, -1):
+        out[:, j] = cols[j][rows]
+        rows = links[j][rows]
+    return out
 
 
 def count_compositions(parts) -> int:
@@ -84,6 +94,11 @@ def count_compositions(parts) -> int:
     for vals, _, k in parts:
         total *= math.comb(k + len(vals) - 1, len(vals) - 1)
     return total
+
+
+def count_cells(parts) -> int:
+    """The largest compositions-times-values array one operand needs."""
+    return max(math.comb(k + len(v) - 1, len(v) - 1) * len(v) for v, _, k in parts)
 
 
 def window_parts(engine: Engine, node: Node, kind: str):
@@ -97,26 +112,31 @@ def window_parts(engine: Engine, node: Node, kind: str):
     return flat_parts(engine, node, use, comb), post
 
 
-def window_counts(engine: Engine, node: Node, kind: str, a: float, b: float):
+def window_counts(engine: Engine, node: Node, kind: str, a: float, b: float,
+                  max_candidates: int = MAX_CANDIDATES):
     """(estimate, certain, possible, candidates, compositions): exact numbers of eigenvalues
     with real part in [a, b].
 
     ``certain`` counts the compositions whose 160-bit value is certainly in the
     window, ``possible`` adds those whose ball straddles an end, ``estimate``
     those whose midpoint is inside.  Raises NotExactError for rules that are
-    not additive and SizeLimitError past MAX_COMPOSITIONS or MAX_CANDIDATES.
+    not additive and SizeLimitError past MAX_COMPOSITIONS, MAX_CELLS or ``max_candidates``,
+    or where a value leaves the double range (the float filter could not bound it).
     """
     parts, (shift, factor) = window_parts(engine, node, kind)
     total = count_compositions(parts)
-    if total > MAX_COMPOSITIONS:
-        raise SizeLimitError(f"{node.label()} has {total} compositions, more than the "
-                             f"{MAX_COMPOSITIONS} a window count enumerates")
+    if total > MAX_COMPOSITIONS or count_cells(parts) > MAX_CELLS:
+        raise SizeLimitError(f"{node.label()} has {total} compositions, more than a window count "
+                             f"enumerates ({MAX_COMPOSITIONS}, or {MAX_CELLS} per operand and value)")
     # 1. float values and a rigorous bound on their error
     sums, grids, err, top = np.zeros(1), [], 0.0, 0.0
     for vals, _, k in parts:
         with working():
             re = [as_acb(v).real for v in vals]
         mid = np.array([float(x.mid()) for x in re])
+        if not np.all(np.isfinite(mid)) or k * float(np.abs(mid).max()) > 1e300:
+            raise SizeLimitError(f"{node.label()}: values beyond the double range; the window "
+                                 "count cannot bound them in floats")
         rad = np.array([radius(x) for x in re]) + np.abs(mid) * U  # ball + conversion
         comps = compositions(k, len(vals))
         grids.append(comps)
@@ -131,10 +151,14 @@ def window_counts(engine: Engine, node: Node, kind: str, a: float, b: float):
     x = sh + fa * sums
     err_x = ((abs(fa) + e_fa) * (1 + 4 * U) * err + 4 * U * (abs(sh) + abs(fa) * np.abs(sums))
              + e_sh + e_fa * np.abs(sums) + 1e-300)
+    if not (np.all(np.isfinite(x)) and np.all(np.isfinite(err_x))):
+        # an overflow (inf, or inf - inf = nan) would drop compositions from the filter unseen
+        raise SizeLimitError(f"{node.label()}: values beyond the double range; the window count "
+                             "cannot bound them in floats")
     cand = np.flatnonzero((x >= a - 2 * err_x) & (x <= b + 2 * err_x))
-    if cand.size > MAX_CANDIDATES:
+    if cand.size > max_candidates:
         raise SizeLimitError(f"{cand.size} compositions of {node.label()} may lie in [{a}, {b}], "
-                             f"more than the {MAX_CANDIDATES} a window count certifies")
+                             f"more than the {max_candidates} a window count certifies here")
     # 2. the candidates as 160-bit balls, decided against the window's ends
     shape = [len(g) for g in grids]
     offsets = np.cumsum([0] + [len(v) for v, _, _ in parts])
@@ -168,5 +192,6 @@ def window_counts(engine: Engine, node: Node, kind: str, a: float, b: float):
     return est, lo, hi, int(cand.size), total
 
 
-__all__ = ["MAX_CANDIDATES", "MAX_COMPOSITIONS", "compositions", "count_compositions",
+__all__ = ["MAX_CANDIDATES", "MAX_CELLS", "MAX_COMPOSITIONS", "compositions", "count_cells",
+           "count_compositions",
            "window_counts", "window_parts"]

@@ -216,10 +216,11 @@ class _Query:
             return None
         return window_cost(self.eng, self.node, self.matrix)
 
-    def window_tier(self) -> WindowTier:
-        """The window tier of the count's [a, b] (SizeLimitError past its limits)."""
+    def window_tier(self, seconds: float = math.inf) -> WindowTier:
+        """The window tier of the count's [a, b] (SizeLimitError past its limits, or when its
+        candidates would take more than about ``seconds`` to certify)."""
         try:
-            return window_tier(self.eng, self.node, self.matrix, *self.window)
+            return window_tier(self.eng, self.node, self.matrix, *self.window, seconds)
         except NotExactError as exc:
             raise SizeLimitError(str(exc)) from exc
 
@@ -280,7 +281,7 @@ class _Query:
             cost = self.window_cost()
             if cost is not None and (not fits or cost < self.exact_cost(evaluations)):
                 try:
-                    return self.window_tier()
+                    return self.window_tier(self.exact_cost(evaluations) if fits else math.inf)
                 except SizeLimitError:
                     pass
             if not fits or self.exact_cost(evaluations) > ENDS_GATE:
@@ -334,7 +335,9 @@ class _Query:
             if name == "law":
                 return law
             try:
-                tier = (self.exact() if name == "exact" else self.window_tier() if name == "window"
+                others = [v[0] for k, v in meet.items() if k != name]
+                tier = (self.exact() if name == "exact"
+                        else self.window_tier(min(others, default=math.inf)) if name == "window"
                         else self.bracket(tol))
                 w = width_of(tier)
                 if w <= tol:
@@ -513,6 +516,7 @@ def count(expr, a, b, matrix: str = "adjacency", *, method: str = "auto", tol: f
     hi = float(hi) if not isinstance(hi, mpmath.mpf) else hi
     est = min(max(float(est), lo), float(hi))
     vals = (scale_count(n, est, "est"), scale_count(n, lo, "lo"), scale_count(n, hi, "hi"))
+    vals = (min(max(vals[0], vals[1]), vals[2]), vals[1], vals[2])  # the estimate within its bounds
     return _answer("count", q, tier, *vals, {"a": a, "b": b})
 
 

@@ -14,6 +14,7 @@ of a spectrum too large to list (:func:`ends_tiers`).
 
 from __future__ import annotations
 
+import math
 from fractions import Fraction
 
 import numpy as np
@@ -21,13 +22,16 @@ import numpy as np
 from powerspec.algebra.engine import Engine, Leaf, Node, Product
 from powerspec.algebra.kinds import CARTESIAN, MATRIX_RULES
 from powerspec.errors import NotExactError, SizeLimitError
+from powerspec.numbers.counts import bit_length
 from powerspec.queries.distends import EndsTier, WindowTier
 from powerspec.queries.disttiers import Atoms
 from powerspec.tiers.exact import exact_feasible, exact_spectrum
 
-WINDOW_SECONDS = (5e-3, 2.6e-7)
-"""Measured cost of a window count: fixed, and per composition (cart(C(5)^1000): 501,501
-compositions, 402 of them certified, in 0.13 s on this project's 2-core machine)."""
+WINDOW_SECONDS = (5e-3, 2.6e-7, 2.5e-8, 3.5e-5)
+"""Measured cost of a window count: fixed, per composition, per composition and operand value
+(building the compositions), and per candidate certified at 160 bits (cart(C(5)^1000): 501,501
+compositions, 402 of them certified, in 0.13 s; cart(C(4)^1000) on [-300, 300]: 139,401
+candidates in 5.0 s), on this project's 2-core machine."""
 
 ENDS_FIRST = 16
 """Atoms listed by the first round of the ends tier (each round lists ENDS_GROWTH times more)."""
@@ -36,7 +40,11 @@ ENDS_GROWTH = 8
 
 ENDS_ATOM_SECONDS = {"add": 6e-5, "mul": 1.5e-3}
 """Measured search cost per listed atom (cart(C(5)^1000): 2048 atoms in 0.11 s; strong(P(3)^1000):
-32 in 0.042 s), on this project's 2-core machine."""
+32 in 0.042 s), on this project's 2-core machine ..."""
+
+ENDS_BIT_SECONDS = 1.3e-9
+"""... plus this per atom and bit of the order (the exact multinomials: cart(C(5)^100000), 232,000
+bits, 8192 atoms in 2.9 s)."""
 
 ENDS_MUL_ATOMS = 32
 """Most atoms one multiplicative search lists here: its cost grows faster than the count
@@ -152,24 +160,35 @@ def flatten(eng: Engine, node: Node, kind: str):
 def window_cost(eng: Engine, node: Node, kind: str) -> float | None:
     """Predicted seconds of :func:`window_tier`, or None where a window count does not apply."""
     # imported here: the command line's start-up does without the search machinery
-    from powerspec.algebra.window import MAX_COMPOSITIONS, count_compositions, window_parts
+    from powerspec.algebra.window import (
+        MAX_CELLS,
+        MAX_COMPOSITIONS,
+        count_cells,
+        count_compositions,
+        window_parts,
+    )
 
     try:
         parts, _ = window_parts(eng, node, kind)
     except (NotExactError, SizeLimitError):
         return None
     total = count_compositions(parts)
-    if total > MAX_COMPOSITIONS:
+    if total > MAX_COMPOSITIONS or count_cells(parts) > MAX_CELLS:
         return None
-    return WINDOW_SECONDS[0] + WINDOW_SECONDS[1] * total
+    cells = sum(math.comb(k + len(v) - 1, len(v) - 1) * len(v) for v, _, k in parts)
+    return WINDOW_SECONDS[0] + WINDOW_SECONDS[1] * total + WINDOW_SECONDS[2] * cells
 
 
-def window_tier(eng: Engine, node: Node, kind: str, a: float, b: float) -> WindowTier:
+def window_tier(eng: Engine, node: Node, kind: str, a: float, b: float,
+                seconds: float = math.inf) -> WindowTier:
     """The exact counts of [a, b] by :func:`~powerspec.algebra.window.window_counts`
-    (NotExactError / SizeLimitError where it does not apply)."""
-    from powerspec.algebra.window import window_counts
+    (NotExactError / SizeLimitError where it does not apply, or where certifying its candidates
+    would take more than about ``seconds``)."""
+    from powerspec.algebra.window import MAX_CANDIDATES, window_counts
 
-    est, lo, hi, cand, total = window_counts(eng, node, kind, a, b)
+    most = MAX_CANDIDATES if math.isinf(seconds) else int(seconds / WINDOW_SECONDS[3])
+    est, lo, hi, cand, total = window_counts(eng, node, kind, a, b,
+                                             max(64, min(most, MAX_CANDIDATES)))
     return WindowTier((est, lo, hi), node.order, (a, b), cand, total)
 
 
@@ -187,7 +206,8 @@ def _far(eng: Engine, node: Node, kind: str, bottom: bool) -> float:
 
 def ends_tiers(eng: Engine, node: Node, kind: str, budget: float):
     """Yield :class:`~powerspec.queries.distends.EndsTier` s listing ever more atoms, bottom and
-    top in turn, while the predicted search cost stays within ``budget`` seconds.
+    top in turn, while the predicted search cost (visited compositions times a measured cost
+    per visit) stays within ``budget`` seconds.
 
     Nothing is yielded where the search does not apply (a single factor, an order kept
     factored, a non-associative mix, a kind that does not follow from the factors) or the
@@ -203,18 +223,23 @@ def ends_tiers(eng: Engine, node: Node, kind: str, budget: float):
         return
     if comb.mode not in ("add", "mul"):
         return
-    per = ENDS_ATOM_SECONDS[comb.mode]
+    # every visited composition costs about one atom's work (values with many compositions,
+    # such as the integers of cart(C(4)^1000), visit many per atom): the visits are capped
+    # so that the whole search stays within the budget
+    per = ENDS_ATOM_SECONDS[comb.mode] + ENDS_BIT_SECONDS * bit_length(node.order)
     cap = ENDS_MUL_ATOMS if comb.mode == "mul" else None
     far: dict[bool, float] = {}
     sides = [True, False]
     spent, m = 0.0, ENDS_FIRST
     while sides and (cap is None or m <= cap):
         for bottom in list(sides):
-            spent += per * m
-            if spent > budget:
+            # at most half of what is left per round: later, larger rounds still get some
+            states = min(ENDS_STATES + 50 * m, int((budget - spent) / per / 2))
+            if states < m:
                 return
+            spent += per * states
             try:
-                sp, _ = search(eng, node, kind, m, bottom, ENDS_STATES + 50 * m)
+                sp, _ = search(eng, node, kind, m, bottom, states)
                 for end in (True, False):
                     if end not in far:
                         far[end] = _far(eng, node, kind, end)
