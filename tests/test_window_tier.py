@@ -122,3 +122,14 @@ def test_many_candidates_fall_back_to_the_full_spectrum():
     got = ps.count("cart(C(4)^1000)", -300, 300, method="exact")
     want = sum(math.comb(2000, j) for j in range(850, 1151))
     assert (got.estimate, got.lower, got.upper) == (want, want, want)
+
+
+def test_auto_count_of_factors_scaled_past_the_double_range():
+    # source: Q_k closed form -- K(2) = P(2), so this is Q_400 scaled by 10^306: eigenvalues
+    # 10^306 (400 - 2j) with multiplicity C(400, j); only j = 200 (the value 0) lies in [-1, 1].
+    # The bracket's grid origin once overflowed a double (OverflowError) under auto.
+    w = "scale(1e100, scale(1e100, scale(1e100, scale(1e6, {}))))"
+    expr = f"cart({w.format('K(2)')}^200, {w.format('P(2)')}^200)"
+    got = ps.count(expr, -1, 1)
+    want = math.comb(400, 200)
+    assert got.lower <= want <= got.upper and got.upper - got.lower <= want // 10**6

@@ -327,7 +327,11 @@ class AddBracket:
         # the largest certified shift (the deterministic one) besides the exact mean move
         self.shift = plan.options[0][0] + self.radius
         self._fh = fh
-        self._base = float(self.origin + self.mean_shift)
+        try:
+            self._base = float(self.origin + self.mean_shift)
+        except OverflowError as exc:  # an exact rational past the double range
+            raise SizeLimitError("the bracket's grid origin lies beyond the double range; scale "
+                                 "the factors down or ask for another tier") from exc
 
     def _index(self, y: np.ndarray, strict: bool) -> np.ndarray:
         """Grid indices j with S' = origin + h (offset + j) <= y (< y if strict), exact at ties."""
