@@ -48,6 +48,17 @@ class Combination:
         return self.a * (x + y) + self.b * x * y
 
     @property
+    def rounded_coefficients(self) -> int:
+        """How many of a, b are not doubles exactly (each rounds once where the rule is applied in
+        floating point: a third does, 0.375 does not).
+
+        >>> eighths, third = Combination(1, Fraction(3, 8)), Combination(1, Fraction(1, 3))
+        >>> eighths.rounded_coefficients, third.rounded_coefficients
+        (0, 1)
+        """
+        return sum(Fraction(float(c)) != c for c in (self.a, self.b))
+
+    @property
     def associative(self) -> bool:
         """True when a is 0 or 1 (every such rule is associative)."""
         return self.a in (0, 1)

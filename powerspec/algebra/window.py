@@ -96,9 +96,15 @@ def count_compositions(parts) -> int:
     return total
 
 
-def count_cells(parts) -> int:
-    """The largest compositions-times-values array one operand needs."""
-    return max(math.comb(k + len(v) - 1, len(v) - 1) * len(v) for v, _, k in parts)
+def count_cells(parts) -> list[int]:
+    """Compositions times values of each operand (the size of its composition array)."""
+    return [math.comb(k + len(v) - 1, len(v) - 1) * len(v) for v, _, k in parts]
+
+
+def enumerable(parts) -> bool:
+    """True when a window count may enumerate the parts' compositions (MAX_COMPOSITIONS in all,
+    MAX_CELLS per operand)."""
+    return count_compositions(parts) <= MAX_COMPOSITIONS and max(count_cells(parts)) <= MAX_CELLS
 
 
 def window_parts(engine: Engine, node: Node, kind: str):
@@ -125,14 +131,15 @@ def window_counts(engine: Engine, node: Node, kind: str, a: float, b: float,
     """
     parts, (shift, factor) = window_parts(engine, node, kind)
     total = count_compositions(parts)
-    if total > MAX_COMPOSITIONS or count_cells(parts) > MAX_CELLS:
+    if not enumerable(parts):
         raise SizeLimitError(f"{node.label()} has {total} compositions, more than a window count "
                              f"enumerates ({MAX_COMPOSITIONS}, or {MAX_CELLS} per operand and value)")
     # 1. float values and a rigorous bound on their error
-    sums, grids, err, top = np.zeros(1), [], 0.0, 0.0
+    sums, grids, values, err, top = np.zeros(1), [], [], 0.0, 0.0
     for vals, _, k in parts:
         with working():
             re = [as_acb(v).real for v in vals]
+        values.append(re)
         mid = np.array([float(x.mid()) for x in re])
         if not np.all(np.isfinite(mid)) or k * float(np.abs(mid).max()) > 1e300:
             raise SizeLimitError(f"{node.label()}: values beyond the double range; the window "
@@ -165,7 +172,6 @@ def window_counts(engine: Engine, node: Node, kind: str, a: float, b: float,
     est = lo = hi = 0
     with working():
         sh_hp, fa_hp = as_hp(shift), as_hp(factor)
-        values = [[as_acb(v).real for v in vals] for vals, _, _ in parts]
         lo_end, hi_end = arb(a), arb(b)
         for flat in cand.tolist():
             state = []
@@ -186,12 +192,10 @@ def window_counts(engine: Engine, node: Node, kind: str, a: float, b: float,
             hi += m
             if inside_lo and inside_hi:
                 lo += m
-            mid = float(xv.mid()) if hasattr(xv, "mid") else float(xv)
-            if a <= mid <= b:
+            if a <= float(xv.mid()) <= b:  # xv is a ball: the sum of balls times a rational
                 est += m
     return est, lo, hi, int(cand.size), total
 
 
 __all__ = ["MAX_CANDIDATES", "MAX_CELLS", "MAX_COMPOSITIONS", "compositions", "count_cells",
-           "count_compositions",
-           "window_counts", "window_parts"]
+           "count_compositions", "enumerable", "window_counts", "window_parts"]

@@ -31,7 +31,7 @@ from fractions import Fraction
 import numpy as np
 
 from powerspec.answers.notation import bound_text, count_text
-from powerspec.queries.disttiers import Atoms, ExactTier
+from powerspec.queries.disttiers import Atoms, ExactTier, ball_end
 
 EPS = float(np.finfo(float).eps)
 
@@ -65,12 +65,8 @@ class EndsTier(ExactTier):
             raise ValueError("the listed atoms hold more eigenvalues than the order")
         v, r = listed.values, listed.radius
         edge = int(np.argmax(v) if bottom else np.argmin(v))  # the m-th atom from the listed end
-        if bottom:
-            self.edge = math.nextafter(float(v[edge] - r[edge]), -math.inf)
-            span = (self.edge, far[1])
-        else:
-            self.edge = math.nextafter(float(v[edge] + r[edge]), math.inf)
-            span = (far[0], self.edge)
+        self.edge = float(ball_end(v[edge], r[edge], -1 if bottom else 1))
+        span = (self.edge, far[1]) if bottom else (far[0], self.edge)
         atoms = listed._replace(order=order)
         if self.tail_mass:
             mid, rad = _ball_around(*span)

@@ -124,6 +124,9 @@ ENDS_REACH = 2.0
 
 EPS = float(np.finfo(float).eps)
 
+EXACT_TIERS = (ExactTier, WindowTier)
+"""Tiers whose counts are exact integers (bounds widened only by certified radii)."""
+
 
 # ----------------------------------------------------------------- checks
 def _check_method(method, tol):
@@ -155,9 +158,10 @@ class _Query:
         self.label = self.node.label()
         self.flat = None
         self.mode = None
-        self.counts_only = False  # set by count: the ends tier may then hold a factored order
         self.at_points = False  # set by cdf, count, quantile: the ends tier answers at points only
-        self.window: tuple[float, float] | None = None  # set by count: a window tier may answer
+        # set by count: a window tier may answer, and an ends tier may hold a factored order
+        # (no fraction of it is formed)
+        self.window: tuple[float, float] | None = None
         self.costs: dict[str, float] = {}  # estimated seconds of the tiers considered by choose
         self.meeting: dict[str, float] = {}  # ... of those predicted to meet the width
 
@@ -203,7 +207,7 @@ class _Query:
         """The first ends tier (atoms listed from the bottom or the top of the spectrum, see
         :func:`~powerspec.queries.distsource.ends_tiers`) whose width meets ``tol`` within
         ``budget`` seconds of predicted search, or None."""
-        if not self.at_points or not (isinstance(self.node.order, int) or self.counts_only):
+        if not self.at_points or not (isinstance(self.node.order, int) or self.window):
             return None  # cdf and quantile form fractions of the order: it must be an int
         for tier in ends_tiers(self.eng, self.node, self.matrix, budget):
             if width_of(tier) <= tol:
@@ -236,7 +240,7 @@ class _Query:
         search then surely reaches the query), else with ENDS_PROBE.
         Returns ``tier`` itself when nothing narrower is found.
         """
-        if isinstance(tier, (ExactTier, WindowTier)) or self.method_req != "auto":
+        if isinstance(tier, EXACT_TIERS) or self.method_req != "auto":
             return tier
         tail = min(mpmath.mpf(below), mpmath.mpf(above))  # an mpmath number below the double range
         count = -math.inf if tail <= 0 else float(mpmath.log(tail, 2)) + log2(self.node.order)
@@ -278,13 +282,14 @@ class _Query:
         m = self.method_req
         if m == "exact":
             fits = engine_fits(self.eng, self.node, self.matrix)
+            full = self.exact_cost(evaluations) if fits else math.inf
             cost = self.window_cost()
-            if cost is not None and (not fits or cost < self.exact_cost(evaluations)):
+            if cost is not None and cost < full:
                 try:
-                    return self.window_tier(self.exact_cost(evaluations) if fits else math.inf)
+                    return self.window_tier(full)
                 except SizeLimitError:
                     pass
-            if not fits or self.exact_cost(evaluations) > ENDS_GATE:
+            if full > ENDS_GATE:
                 # the atoms at one end may answer exactly before the full spectrum is built
                 tier = self.ends(width_of, self.tol or 0.0, ENDS_BUDGET if fits else ENDS_REACH)
                 if tier is not None:
@@ -486,9 +491,10 @@ def count(expr, a, b, matrix: str = "adjacency", *, method: str = "auto", tol: f
 
     n = q.node.order
 
-    def frac(tier):
-        hb = q.x_cdf(tier, b, False)
-        ha = q.x_cdf(tier, a, True)
+    def cdf_at_ends(tier):
+        return q.x_cdf(tier, b, False), q.x_cdf(tier, a, True)
+
+    def frac(hb, ha):
         return hb[0] - ha[0], max(0, hb[1] - ha[2]), min(1, hb[2] - ha[1])
 
     def exact_counts(tier):
@@ -499,19 +505,19 @@ def count(expr, a, b, matrix: str = "adjacency", *, method: str = "auto", tol: f
         return cb[0] - ca[0], max(0, cb[1] - ca[2]), min(n, cb[2] - ca[1])
 
     def width(tier):
-        if not isinstance(tier, (ExactTier, WindowTier)):
-            return bound_width(frac(tier))
+        if not isinstance(tier, EXACT_TIERS):
+            return bound_width(frac(*cdf_at_ends(tier)))
         _, lo, hi = exact_counts(tier)
         return 0.0 if hi == lo else 2.0 ** (log2(hi - lo) - log2(n))
 
-    q.counts_only = True  # an order kept factored is fine here: no fraction is formed
     q.window = (a, b)
     tier = q.choose(width, evaluations=2)
-    if not isinstance(tier, (ExactTier, WindowTier)):
-        tier = q.refine(tier, width, q.x_cdf(tier, b, False)[2], 1 - q.x_cdf(tier, a, True)[1])
-    if isinstance(tier, (ExactTier, WindowTier)):
+    if not isinstance(tier, EXACT_TIERS):
+        hb, ha = cdf_at_ends(tier)
+        tier = q.refine(tier, width, hb[2], 1 - ha[1])  # the same tier, or an exact one
+    if isinstance(tier, EXACT_TIERS):
         return _answer("count", q, tier, *exact_counts(tier), {"a": a, "b": b})
-    est, lo, hi = frac(tier)
+    est, lo, hi = frac(hb, ha)
     lo = max(0.0, float(lo))
     hi = float(hi) if not isinstance(hi, mpmath.mpf) else hi
     est = min(max(float(est), lo), float(hi))

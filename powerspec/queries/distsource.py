@@ -24,7 +24,7 @@ from powerspec.algebra.kinds import CARTESIAN, MATRIX_RULES
 from powerspec.errors import NotExactError, SizeLimitError
 from powerspec.numbers.counts import bit_length
 from powerspec.queries.distends import EndsTier, WindowTier
-from powerspec.queries.disttiers import Atoms
+from powerspec.queries.disttiers import Atoms, ball_end
 from powerspec.tiers.exact import exact_feasible, exact_spectrum
 
 WINDOW_SECONDS = (5e-3, 2.6e-7, 2.5e-8, 3.5e-5)
@@ -160,23 +160,16 @@ def flatten(eng: Engine, node: Node, kind: str):
 def window_cost(eng: Engine, node: Node, kind: str) -> float | None:
     """Predicted seconds of :func:`window_tier`, or None where a window count does not apply."""
     # imported here: the command line's start-up does without the search machinery
-    from powerspec.algebra.window import (
-        MAX_CELLS,
-        MAX_COMPOSITIONS,
-        count_cells,
-        count_compositions,
-        window_parts,
-    )
+    from powerspec.algebra.window import count_cells, count_compositions, enumerable, window_parts
 
     try:
         parts, _ = window_parts(eng, node, kind)
     except (NotExactError, SizeLimitError):
         return None
-    total = count_compositions(parts)
-    if total > MAX_COMPOSITIONS or count_cells(parts) > MAX_CELLS:
+    if not enumerable(parts):
         return None
-    cells = sum(math.comb(k + len(v) - 1, len(v) - 1) * len(v) for v, _, k in parts)
-    return WINDOW_SECONDS[0] + WINDOW_SECONDS[1] * total + WINDOW_SECONDS[2] * cells
+    return (WINDOW_SECONDS[0] + WINDOW_SECONDS[1] * count_compositions(parts)
+            + WINDOW_SECONDS[2] * sum(count_cells(parts)))
 
 
 def window_tier(eng: Engine, node: Node, kind: str, a: float, b: float,
@@ -192,16 +185,11 @@ def window_tier(eng: Engine, node: Node, kind: str, a: float, b: float,
     return WindowTier((est, lo, hi), node.order, (a, b), cand, total)
 
 
-def _far(eng: Engine, node: Node, kind: str, bottom: bool) -> float:
-    """A float bound on the real part of every eigenvalue from below (``bottom``) or above."""
-    from powerspec.algebra.extremes import search
-
-    sp, _ = search(eng, node, kind, 1, bottom, ENDS_STATES)
-    at = atoms_of(sp)
+def _outer(at: Atoms, bottom: bool) -> float:
+    """The outer ball end of the smallest (``bottom``) or largest atom, as a float bound: for the
+    atoms at an end of the spectrum, a bound on every eigenvalue's real part."""
     i = int(np.argmin(at.values) if bottom else np.argmax(at.values))
-    v, r = float(at.values[i]), float(at.radius[i])
-    end = np.nextafter(v - r, -np.inf) if bottom else np.nextafter(v + r, np.inf)
-    return float(end)
+    return float(ball_end(at.values[i], at.radius[i], -1 if bottom else 1))
 
 
 def ends_tiers(eng: Engine, node: Node, kind: str, budget: float):
@@ -240,13 +228,15 @@ def ends_tiers(eng: Engine, node: Node, kind: str, budget: float):
             spent += per * states
             try:
                 sp, _ = search(eng, node, kind, m, bottom, states)
-                for end in (True, False):
-                    if end not in far:
-                        far[end] = _far(eng, node, kind, end)
+                other = not bottom
+                if other not in far:  # the other end of the spectrum: one atom from there
+                    far[other] = _outer(atoms_of(search(eng, node, kind, 1, other,
+                                                        ENDS_STATES)[0]), other)
             except (NotExactError, SizeLimitError):
                 sides.remove(bottom)
                 continue
             listed = atoms_of(sp)
+            far[bottom] = _outer(listed, bottom)  # this end: the most extreme listed atom
             if not (np.all(np.isfinite(listed.values + listed.radius))
                     and all(np.isfinite(list(far.values())))):
                 return

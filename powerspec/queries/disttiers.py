@@ -84,6 +84,18 @@ class Atoms(NamedTuple):
 
 
 # ------------------------------------------------------------------ exact
+def ball_end(v, r, side: int):
+    """The end v + side r of a ball as a float bound: stepped one ulp outward where r > 0, since
+    v + side r rounds to nearest (back to v itself when r < ulp(v) / 2); v itself where r == 0.
+    Arrays in, arrays out.
+
+    >>> float(ball_end(1.0, 1e-20, 1)) > 1.0, float(ball_end(1.0, 0.0, -1))
+    (True, 1.0)
+    """
+    with np.errstate(invalid="ignore"):
+        return np.where(r > 0, np.nextafter(v + side * r, side * np.inf), v)
+
+
 class ExactTier:
     """All atoms, exact counts; an atom within its radius of x counts in the upper bound only."""
 
@@ -99,13 +111,10 @@ class ExactTier:
             "build), counted exactly (atoms within their certified radius of x count in the upper "
             "bound only)")
         # three sorted views: by value (estimate), by value + radius (lower), by value - radius
-        # (upper); the ball ends are stepped outward, since v +- r rounds to nearest (back to v
-        # itself when r < ulp(v) / 2, which would count such an atom as certainly <= v)
-        with np.errstate(invalid="ignore"):
-            up = np.where(r > 0, np.nextafter(v + r, np.inf), v)
-            down = np.where(r > 0, np.nextafter(v - r, -np.inf), v)
+        # (upper), the ball ends stepped outward (rounded to nearest, an atom with r < ulp(v) / 2
+        # would count as certainly <= v)
         self._views = []
-        for key in (v, up, down):
+        for key in (v, ball_end(v, r, 1), ball_end(v, r, -1)):
             o = np.argsort(key, kind="stable")
             same = next((view for view in self._views if np.array_equal(view[2], o)), None)
             if same is not None:
@@ -140,10 +149,7 @@ class ExactTier:
         v = float(self.atoms.values[i])
         r = float(self.atoms.radius[i])
         if math.isfinite(v) and math.isfinite(r):
-            if side == 0 or r == 0:  # radius 0: the double is the value itself
-                return v
-            # v -+ r rounds to nearest (back to v itself when r < ulp(v)/2): step outward
-            return math.nextafter(v + side * r, side * math.inf)
+            return v if side == 0 else float(ball_end(v, r, side))
         big = self.atoms.value_of(i) if self.atoms.value_of is not None else v
         if not isinstance(big, mpmath.mpf):
             big = mpmath.mpf(big)
@@ -585,5 +591,5 @@ class MulBracketTier:
         return self.estimated_cost + 5e-5 * points
 
 
-__all__ = ["Atoms", "ExactTier", "AddLaw", "MulLaw", "AddBracketTier", "MulBracketTier",
+__all__ = ["Atoms", "ball_end", "ExactTier", "AddLaw", "MulLaw", "AddBracketTier", "MulBracketTier",
            "split_exact", "real_or_refuse", "MIX_ATOMS"]

@@ -24,7 +24,6 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
-from fractions import Fraction
 
 import numpy as np
 
@@ -94,18 +93,6 @@ def _degree_slack(engine: Engine, node: Product, kind: str) -> float:
     return change * 1.01 + 1e-300
 
 
-def binary_coefficients(comb) -> bool:
-    """True when the rule's a and b are doubles exactly (the symmetry tier's error bounds take
-    them as exact inputs; a third is not).
-
-    >>> from powerspec.algebra.kinds import Combination
-    >>> third, eighths = Combination(1, Fraction(1, 3)), Combination(1, Fraction(3, 8))
-    >>> binary_coefficients(eighths), binary_coefficients(third)
-    (True, False)
-    """
-    return all(Fraction(float(c)) == c for c in (comb.a, comb.b))
-
-
 def symmetry_spectrum(engine: Engine, node: Node, kind: str, *, workers: int = 1,
                       scheduler: str | None = None,
                       progress: Callable[[int, int], None] | None = None) -> tuple[Spectrum, str]:
@@ -113,7 +100,7 @@ def symmetry_spectrum(engine: Engine, node: Node, kind: str, *, workers: int = 1
     ops = symmetry_operands(engine, node)
     if ops is None:
         raise NotExactError(f"{node.label()} is not a product of powers of undirected factors")
-    if not binary_coefficients(node.comb):
+    if node.comb.rounded_coefficients:
         raise NotExactError("the symmetry tier works in binary floating point: mix coefficients "
                             "must be binary fractions (such as 1/4 or 0.375), not "
                             f"{node.comb.a}, {node.comb.b}")
@@ -155,7 +142,7 @@ def exact_feasible(engine: Engine, node: Node, kind: str) -> bool:
 def _symmetry_plan(engine: Engine, node: Node, kind: str):
     """The symmetry tier's plan within its limits, or None where it does not apply."""
     ops = symmetry_operands(engine, node)
-    if ops is None or not binary_coefficients(node.comb):
+    if ops is None or node.comb.rounded_coefficients:
         return None
     try:
         p = plan(ops, float(node.comb.a), float(node.comb.b), kind)

@@ -43,7 +43,7 @@ def _fold_float(node: Node, direction: str) -> tuple[np.ndarray, np.ndarray, int
         return f.adjacency.toarray(), np.array([float(d) for d in f.exact_degrees(direction)]), 1
     a, b = float(node.comb.a), float(node.comb.b)
     # a coefficient that is not a double (a third) is one more relative rounding per fold
-    coef = sum(Fraction(float(c)) != c for c in (node.comb.a, node.comb.b))
+    coef = node.comb.rounded_coefficients
     acc = None
     depth = 0
     for child, k in node.operands:

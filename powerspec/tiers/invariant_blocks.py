@@ -136,7 +136,7 @@ def operands(node: Node, direction: str = "out", max_blocks: int = MAX_BLOCKS):
     a, b = node.comb.a, node.comb.b
     if a not in (0, 1) or (a == 0 and b == 0):
         return "the symmetry tier needs a = 0 or 1 (an associative product)"
-    if Fraction(float(b)) != b:
+    if node.comb.rounded_coefficients:  # a is 0 or 1 here
         return f"the symmetry tier needs a binary-fraction coefficient b (such as 0.375), not {b}"
     ops, deltas = [], []
     total_blocks = 1
